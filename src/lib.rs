@@ -1,0 +1,3 @@
+//! flumerate: head→discharge ratings for broad-crested weirs and long-throated flumes.
+pub mod hydraulics;
+pub mod rating;

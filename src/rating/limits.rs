@@ -1,0 +1,170 @@
+//! Limits of application of the critical-flow rating, each with its source.
+//!
+//! A rating row outside any limit is kept and marked `valid = false`, with the broken limits
+//! named in its note. The numeric bounds are recalled from the standards named beside them
+//! (marked "from memory" where the value was not read in the standard itself); see
+//! references.md §1.2, §2.3 and §4.3 for what was and was not seen.
+
+use super::model::{RatingPoint, Structure, StructureKind};
+use crate::hydraulics::Section;
+
+/// What a limit is evaluated on.
+#[derive(Debug, Clone, Copy)]
+pub struct LimitContext<'a> {
+    /// The structure.
+    pub structure: &'a Structure,
+    /// The computed point.
+    pub point: &'a RatingPoint,
+}
+
+/// One limit of application.
+#[derive(Debug, Clone, Copy)]
+pub struct Limit {
+    /// Short identifier used in notes, e.g. `H1/L<=0.7`.
+    pub id: &'static str,
+    /// The rule in words.
+    pub rule: &'static str,
+    /// Where it comes from.
+    pub source: &'static str,
+    /// Which structures it applies to (`None`: all).
+    pub kind: Option<StructureKind>,
+    /// True when the point satisfies the limit; `None` when the limit does not apply.
+    pub holds: fn(&LimitContext) -> Option<bool>,
+}
+
+fn rectangular(s: &Structure) -> bool {
+    matches!(s.control, Section::Rectangle { .. })
+}
+
+fn width_m(s: &Structure) -> Option<f64> {
+    match s.control {
+        Section::Triangle { .. } => None,
+        _ => Some(s.control.characteristic_width_m()),
+    }
+}
+
+/// Every limit flumerate knows, in the order they are reported.
+pub const LIMITS: &[Limit] = &[
+    Limit {
+        id: "h1>=0.05m",
+        rule: "gauged head h1 at least 0.05 m (surface tension and reading error grow below it)",
+        source: "ISO 4359 (from memory; references.md §2.3)",
+        kind: Some(StructureKind::Flume),
+        holds: |c| Some(c.point.head_m >= 0.05 - 1e-12),
+    },
+    Limit {
+        id: "h1>=0.06m",
+        rule: "gauged head h1 at least 0.06 m",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        kind: Some(StructureKind::Weir),
+        holds: |c| Some(c.point.head_m >= 0.06 - 1e-12),
+    },
+    Limit {
+        id: "H1/L>=0.07",
+        rule: "H1/L at least 0.07 (below it friction along the throat dominates and the theory loses accuracy)",
+        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory; references.md §4.3)",
+        kind: None,
+        holds: |c| Some(c.point.energy_head_m / c.structure.control_length_m >= 0.07 - 1e-12),
+    },
+    Limit {
+        id: "H1/L<=0.7",
+        rule: "H1/L at most 0.7 (above it streamlines at the control are curved, not parallel)",
+        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory; references.md §4.3)",
+        kind: Some(StructureKind::Flume),
+        holds: |c| Some(c.point.energy_head_m / c.structure.control_length_m <= 0.7 + 1e-12),
+    },
+    Limit {
+        id: "h1/L<=0.57",
+        rule: "h1/L at most 0.57",
+        source: "ISO 4374 (from memory; references.md §1.2)",
+        kind: Some(StructureKind::Weir),
+        holds: |c| Some(c.point.head_m / c.structure.control_length_m <= 0.57 + 1e-12),
+    },
+    Limit {
+        id: "Fr1<=0.5",
+        rule: "approach Froude number at most 0.5 (a stable, readable water surface at the gauge)",
+        source: "Clemmens et al. 2001 §5.2 and ISO 4359 (from memory; references.md §4.3)",
+        kind: None,
+        holds: |c| Some(c.point.froude_approach <= 0.5 + 1e-12),
+    },
+    Limit {
+        id: "b>=0.10m",
+        rule: "control width (bed width, or diameter) at least 0.10 m",
+        source: "ISO 4359 (from memory; references.md §2.3)",
+        kind: Some(StructureKind::Flume),
+        holds: |c| width_m(c.structure).map(|b| b >= 0.10 - 1e-12),
+    },
+    Limit {
+        id: "h1/b<=3",
+        rule: "h1/b at most 3 for a rectangular throat",
+        source: "ISO 4359 (from memory; references.md §2.3)",
+        kind: Some(StructureKind::Flume),
+        holds: |c| {
+            rectangular(c.structure)
+                .then(|| c.point.head_m / c.structure.control.characteristic_width_m() <= 3.0 + 1e-12)
+        },
+    },
+    Limit {
+        id: "b>=0.30m",
+        rule: "crest width at least 0.30 m",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        kind: Some(StructureKind::Weir),
+        holds: |c| width_m(c.structure).map(|b| b >= 0.30 - 1e-12),
+    },
+    Limit {
+        id: "p1>=0.15m",
+        rule: "crest at least 0.15 m above the approach bed",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        kind: Some(StructureKind::Weir),
+        holds: |c| Some(c.structure.sill_height_m >= 0.15 - 1e-12),
+    },
+    Limit {
+        id: "h1/p1<=1.5",
+        rule: "h1/p1 at most 1.5",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        kind: Some(StructureKind::Weir),
+        holds: |c| {
+            let p = c.structure.sill_height_m;
+            Some(p > 0.0 && c.point.head_m / p <= 1.5 + 1e-12)
+        },
+    },
+    Limit {
+        id: "surveyed",
+        rule: "water level within the surveyed control section (above it the section is continued with vertical walls, an assumption)",
+        source: "geometry",
+        kind: None,
+        holds: |c| {
+            c.structure
+                .control
+                .surveyed_top_m()
+                .map(|top| c.point.head_m <= top + 1e-12)
+        },
+    },
+    Limit {
+        id: "below-crown",
+        rule: "upstream water level below the crown of a circular control (above it the entrance can run full)",
+        source: "geometry",
+        kind: None,
+        holds: |c| c.structure.control.full_depth_m().map(|d| c.point.energy_head_m < d),
+    },
+    Limit {
+        id: "one-critical-depth",
+        rule: "a single critical depth in the control (a compound section with several can switch between them)",
+        source: "critical-flow theory (Henderson 1966 §2.3): the rating assumes one control",
+        kind: None,
+        holds: |c| Some(c.point.control_critical_states <= 1),
+    },
+];
+
+/// The limits that apply to a structure of this kind.
+pub fn limits_for(kind: StructureKind) -> impl Iterator<Item = &'static Limit> {
+    LIMITS.iter().filter(move |l| l.kind.is_none_or(|k| k == kind))
+}
+
+/// The identifiers of the limits a point breaks (empty when it is within all of them).
+pub fn broken_limits(structure: &Structure, point: &RatingPoint) -> Vec<&'static Limit> {
+    let ctx = LimitContext { structure, point };
+    limits_for(structure.kind)
+        .filter(|l| (l.holds)(&ctx) == Some(false))
+        .collect()
+}

@@ -1,0 +1,332 @@
+//! The head→discharge model of a critical-flow control: an energy balance from the
+//! head-measurement (gauging) section to the control, where the flow passes critical depth.
+//!
+//! Equations (references in each item):
+//! - energy at the gauging section, referred to the crest: H1 = h1 + α·Q²/(2g·A1²), with A1 the
+//!   approach flow area at depth h1 + p1 (Bos 1989, *Discharge Measurement Structures*, ILRI
+//!   Publ. 20, §1.9; Clemmens, Wahl, Bos & Replogle 2001, *Water Measurement with Flumes and
+//!   Weirs*, ILRI Publ. 58, ch. 6);
+//! - critical flow at the control: E_c = y_c + A_c/(2B_c) = H1 and Q = √(g·A_c³/B_c)
+//!   (Henderson 1966, *Open Channel Flow*, §2.3), for any control shape;
+//! - losses either as a boundary-layer displacement thickness δ* = 0.003·L over the wetted
+//!   boundary of the control (ISO 4359 for a well-finished throat; the same δ* in ISO 4374), or as
+//!   a fixed discharge coefficient Q = Cd·Q_ideal(H1);
+//! - the approach-velocity effect solved exactly, taking the smaller (physical) root of
+//!   H1 − h1 − α·Q(H1)²/(2g·A1²) = 0, where the approach flow is subcritical (references.md §1.1).
+//!
+//! The reported coefficients follow the usual definitions: Cv = Q_ideal(H1)/Q_ideal(h1) (for a
+//! rectangle (H1/h1)^{3/2}, Bos 1989 §1.10) and Cd = Q/Q_ideal(H1).
+
+use crate::hydraulics::{critical_at_energy, GeometryError, Section};
+
+/// How losses between the gauging section and the control enter the rating.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LossMethod {
+    /// Boundary-layer displacement thickness δ* (m) applied to every wetted boundary of the control.
+    BoundaryLayer {
+        /// δ* in metres (ISO 4359: 0.003·L for a well-finished throat).
+        displacement_thickness_m: f64,
+    },
+    /// A fixed discharge coefficient multiplying the ideal critical-flow discharge at H1.
+    FixedCd(f64),
+}
+
+/// What kind of structure the control belongs to; it selects the limits of application.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StructureKind {
+    /// A long-throated flume (ISO 4359; Clemmens et al. 2001).
+    Flume,
+    /// A broad-crested weir across the channel (ISO 4374 / ISO 3846 family).
+    Weir,
+}
+
+/// The surveyed structure in SI units: everything the rating needs.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Structure {
+    /// The control (throat or crest) section.
+    pub control: Section,
+    /// Length of the throat or crest in the flow direction (m).
+    pub control_length_m: f64,
+    /// The approach channel at the gauging section.
+    pub approach: Section,
+    /// Height of the crest above the approach bed, p1 (m).
+    pub sill_height_m: f64,
+    /// Coriolis (velocity-distribution) coefficient of the approach flow.
+    pub approach_alpha: f64,
+    /// How losses enter.
+    pub loss: LossMethod,
+    /// Flume or weir, for the limits of application.
+    pub kind: StructureKind,
+    /// Gravitational acceleration (m/s²).
+    pub gravity_m_s2: f64,
+}
+
+/// Why a rating point could not be computed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum RatingError {
+    /// Heads are measured above the crest and must be positive.
+    #[error("head {head_m} m is not above the crest: heads must be greater than zero")]
+    HeadNotPositive {
+        /// The head (m).
+        head_m: f64,
+    },
+    /// No subcritical approach flow satisfies the energy balance: the control does not contract
+    /// the flow enough for the approach channel, which would have to run at or above critical.
+    #[error(
+        "at head {head_m} m the approach channel cannot feed the control subcritically (the control is about as large as the approach flow area): no critical-flow rating exists; contract the control or enlarge the approach"
+    )]
+    ApproachChoked {
+        /// The head (m).
+        head_m: f64,
+    },
+    /// The approach section is a pipe that would be full at this head.
+    #[error("at head {head_m} m the approach pipe (diameter {diameter_m} m) would flow full")]
+    ApproachFull {
+        /// The head (m).
+        head_m: f64,
+        /// The approach pipe diameter (m).
+        diameter_m: f64,
+    },
+    /// The boundary-layer offset of the control failed.
+    #[error("boundary-layer method: {0}")]
+    Geometry(#[from] GeometryError),
+}
+
+/// One computed point of a rating.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RatingPoint {
+    /// Piezometric head above the crest at the gauging section, h1 (m).
+    pub head_m: f64,
+    /// Energy head above the crest at the gauging section, H1 (m).
+    pub energy_head_m: f64,
+    /// Discharge (m³/s).
+    pub discharge_m3s: f64,
+    /// Water depth at the control section above the crest (m): the critical depth in the
+    /// effective section plus its rise (boundary layer), or the ideal critical depth at H1.
+    pub critical_depth_m: f64,
+    /// Discharge coefficient Q/Q_ideal(H1).
+    pub cd: f64,
+    /// Approach-velocity coefficient Q_ideal(H1)/Q_ideal(h1).
+    pub cv: f64,
+    /// Froude number of the approach flow at the gauging section, V1/√(g·A1/B1).
+    pub froude_approach: f64,
+    /// Mean approach velocity (m/s).
+    pub approach_velocity_m_s: f64,
+    /// Number of local critical states in the control at H1 (more than one only in compound
+    /// surveyed sections).
+    pub control_critical_states: usize,
+}
+
+/// A rating model ready to evaluate: the structure plus its precomputed effective section.
+#[derive(Debug, Clone)]
+pub struct RatingModel {
+    structure: Structure,
+    control: Control,
+}
+
+/// The control as the model evaluates it.
+#[derive(Debug, Clone)]
+enum Control {
+    /// The boundary-layer effective section and the rise of its lowest point above the crest (m).
+    Effective { section: Section, rise_m: f64 },
+    /// The geometric section with a fixed discharge coefficient.
+    Fixed { cd: f64 },
+}
+
+/// Flow through the control at one energy head.
+#[derive(Debug, Clone, Copy)]
+struct ControlFlow {
+    discharge_m3s: f64,
+    /// Cd·A_c: with it, dQ²/dH = 2g·(Cd·A_c)² (m²).
+    scaled_area_m2: f64,
+    depth_above_crest_m: f64,
+    states: usize,
+}
+
+impl RatingModel {
+    /// Prepares the model; for the boundary-layer method this builds the effective section.
+    pub fn new(structure: Structure) -> Result<Self, RatingError> {
+        let control = match structure.loss {
+            LossMethod::BoundaryLayer {
+                displacement_thickness_m,
+            } => {
+                let (section, rise_m) = structure.control.offset_inward(displacement_thickness_m)?;
+                Control::Effective { section, rise_m }
+            }
+            LossMethod::FixedCd(cd) => Control::Fixed { cd },
+        };
+        Ok(Self { structure, control })
+    }
+
+    /// The structure this model rates.
+    pub fn structure(&self) -> &Structure {
+        &self.structure
+    }
+
+    /// The ideal (loss-free) critical-flow discharge of the control at energy head `energy_head_m`.
+    pub fn ideal_discharge_m3s(&self, energy_head_m: f64) -> f64 {
+        critical_at_energy(&self.structure.control, energy_head_m, 1.0, self.structure.gravity_m_s2).discharge_m3s
+    }
+
+    fn control_flow(&self, energy_head_m: f64) -> ControlFlow {
+        let g = self.structure.gravity_m_s2;
+        let (section, rise_m, cd) = match &self.control {
+            Control::Effective { section, rise_m } => (section, *rise_m, 1.0),
+            Control::Fixed { cd } => (&self.structure.control, 0.0, *cd),
+        };
+        let c = critical_at_energy(section, energy_head_m - rise_m, 1.0, g);
+        ControlFlow {
+            discharge_m3s: cd * c.discharge_m3s,
+            scaled_area_m2: cd * c.area_m2,
+            depth_above_crest_m: c.depth_m + rise_m,
+            states: c.local_maxima,
+        }
+    }
+
+    /// Discharge (m³/s) at gauged head `head_m` above the crest.
+    pub fn discharge_m3s(&self, head_m: f64) -> Result<f64, RatingError> {
+        Ok(self.point(head_m)?.discharge_m3s)
+    }
+
+    /// Solves the energy balance at gauged head `head_m` (m above the crest).
+    ///
+    /// With c = α/(2g·A1²), the residual r(H) = H − h1 − c·Q(H)² has r(h1) < 0 and, because
+    /// dQ²/dH = 2g·A_c² at a critical section (envelope of Q = A√(2g(E − y))), the slope
+    /// r'(H) = 1 − α·A_c²/A1² falls as H rises: r is concave. Newton's method started at h1 then
+    /// climbs monotonically to the smaller root, which is the physical one (A_c < A1/√α, approach
+    /// subcritical). A bisection safeguard keeps every step inside the known bracket.
+    pub fn point(&self, head_m: f64) -> Result<RatingPoint, RatingError> {
+        if !(head_m.is_finite() && head_m > 0.0) {
+            return Err(RatingError::HeadNotPositive { head_m });
+        }
+        let s = &self.structure;
+        let g = s.gravity_m_s2;
+        let approach_depth = head_m + s.sill_height_m;
+        if let Some(d) = s.approach.full_depth_m() {
+            if approach_depth >= d {
+                return Err(RatingError::ApproachFull { head_m, diameter_m: d });
+            }
+        }
+        let a1 = s.approach.area_m2(approach_depth);
+        let b1 = s.approach.top_width_m(approach_depth);
+        let c = s.approach_alpha / (2.0 * g * a1 * a1);
+
+        let (mut lo, mut hi) = (head_m, f64::INFINITY);
+        let mut h = head_m;
+        let mut flow = self.control_flow(h);
+        let mut converged = false;
+        for _ in 0..200 {
+            let r = h - head_m - c * flow.discharge_m3s * flow.discharge_m3s;
+            if r < 0.0 {
+                lo = lo.max(h);
+            } else {
+                hi = hi.min(h);
+            }
+            let slope = 1.0 - s.approach_alpha * (flow.scaled_area_m2 / a1).powi(2);
+            let newton = if slope > 0.0 { h - r / slope } else { f64::NAN };
+            let next = if newton > lo && newton < hi {
+                newton
+            } else if hi.is_finite() {
+                0.5 * (lo + hi)
+            } else {
+                // past the crest of the concave residual without finding a root
+                return Err(RatingError::ApproachChoked { head_m });
+            };
+            let done = (next - h).abs() <= 1e-15 * h || r == 0.0;
+            h = next;
+            flow = self.control_flow(h);
+            if done || (hi.is_finite() && hi - lo <= 2e-16 * hi) {
+                converged = true;
+                break;
+            }
+        }
+        if !converged {
+            return Err(RatingError::ApproachChoked { head_m });
+        }
+        let q = flow.discharge_m3s;
+        let ideal_h1 = self.ideal_discharge_m3s(h);
+        let ideal_head = self.ideal_discharge_m3s(head_m);
+        let v1 = q / a1;
+        Ok(RatingPoint {
+            head_m,
+            energy_head_m: h,
+            discharge_m3s: q,
+            critical_depth_m: flow.depth_above_crest_m,
+            cd: q / ideal_h1,
+            cv: ideal_h1 / ideal_head,
+            froude_approach: v1 / (g * a1 / b1).sqrt(),
+            approach_velocity_m_s: v1,
+            control_critical_states: flow.states,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::hydraulics::STANDARD_GRAVITY_M_S2;
+    use approx::assert_relative_eq;
+
+    fn rect(b: f64, big_b: f64, p: f64, l: f64, loss: LossMethod) -> RatingModel {
+        RatingModel::new(Structure {
+            control: Section::Rectangle { width_m: b },
+            control_length_m: l,
+            approach: Section::Rectangle { width_m: big_b },
+            sill_height_m: p,
+            approach_alpha: 1.0,
+            loss,
+            kind: StructureKind::Flume,
+            gravity_m_s2: STANDARD_GRAVITY_M_S2,
+        })
+        .expect("model")
+    }
+
+    #[test]
+    fn ideal_rectangle_with_exact_approach_velocity() {
+        // references.md §1.1 (COMPUTED, independent energy-balance root), Cd = 1
+        let cases = [
+            (1.0, 1.0, 0.3, 0.3, 1.0634870860, 0.2978773982),
+            (0.5, 1.0, 0.1, 0.2, 1.0261098904, 0.0782226132),
+            (1.0, 1.0, 0.15, 0.3, 1.1283437081, 0.3160434127),
+        ];
+        for (b, big_b, p, h, cv, q) in cases {
+            let pt = rect(b, big_b, p, 1.0, LossMethod::FixedCd(1.0)).point(h).expect("point");
+            assert_relative_eq!(pt.discharge_m3s, q, max_relative = 1e-9);
+            assert_relative_eq!(pt.cv, cv, max_relative = 1e-9);
+            assert_relative_eq!(pt.cd, 1.0, max_relative = 1e-12);
+        }
+    }
+
+    #[test]
+    fn iso_4359_rectangular_examples_by_boundary_layer() {
+        // references.md §2.2 (COMPUTED from ISO 4359's rectangular-throat formulas, δ* = 0.003 L)
+        let cases = [
+            (0.5, 1.0, 0.20, 1.0, 0.1, 0.0754155493),
+            (0.5, 1.0, 0.05, 1.0, 0.1, 0.0086236095),
+            (1.0, 2.0, 0.50, 2.0, 0.3, 0.5972580394),
+            (0.25, 0.75, 0.30, 0.6, 0.0, 0.0706812236),
+        ];
+        for (b, l, h, big_b, p, q) in cases {
+            let m = rect(
+                b,
+                big_b,
+                p,
+                l,
+                LossMethod::BoundaryLayer {
+                    displacement_thickness_m: 0.003 * l,
+                },
+            );
+            let pt = m.point(h).expect("point");
+            assert_relative_eq!(pt.discharge_m3s, q, max_relative = 1.5e-3);
+        }
+    }
+
+    #[test]
+    fn approach_too_small_is_reported() {
+        // a "control" wider than the approach, with no sill, cannot be critical-flow controlled:
+        // x − 1 = (4/27)(b/B)²x³ with x = H1/h1 has no root for b/B = 1.25 (hand check)
+        let m = rect(1.0, 0.8, 0.0, 1.0, LossMethod::FixedCd(1.0));
+        assert!(matches!(m.point(0.3), Err(RatingError::ApproachChoked { .. })));
+    }
+}
