@@ -1,3 +1,6 @@
 //! flumerate: head→discharge ratings for broad-crested weirs and long-throated flumes.
 pub mod hydraulics;
 pub mod rating;
+pub mod report;
+pub mod station;
+pub mod units;

@@ -1,1 +1,20 @@
-fn main() {}
+//! The `flumerate` command. Exit codes (design.md): 0 success; 1 the work ran but something needs
+//! attention (a limit broken, a check failed); 2 bad input or usage. A closed pipe on standard
+//! output counts as success.
+
+mod cli;
+
+use std::process::ExitCode;
+
+use clap::Parser;
+
+fn main() -> ExitCode {
+    let args = cli::Cli::parse();
+    match cli::run(args) {
+        Ok(code) => code,
+        Err(err) => {
+            eprintln!("flumerate: error: {err:#}");
+            ExitCode::from(2)
+        }
+    }
+}

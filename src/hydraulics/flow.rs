@@ -146,7 +146,12 @@ pub fn critical_at_energy(section: &Section, energy_m: f64, alpha: f64, g: f64) 
         area_m2: area,
         top_width_m: width,
         discharge_m3s: discharge,
-        energy_m: depth + if width > 0.0 { alpha * area / (2.0 * width) } else { f64::INFINITY },
+        energy_m: depth
+            + if width > 0.0 {
+                alpha * area / (2.0 * width)
+            } else {
+                f64::INFINITY
+            },
         local_maxima,
     }
 }
@@ -227,8 +232,16 @@ pub fn critical_depths_m(section: &Section, discharge_m3s: f64, alpha: f64, g: f
         } => {
             // A³/T of a trapezoid exceeds that of its bed-width rectangle and of its triangle,
             // so either of their critical depths bounds it from above.
-            let rect = if *b > 0.0 { (q2 / (g * b * b)).cbrt() } else { f64::INFINITY };
-            let tri = if *m > 0.0 { (2.0 * q2 / (g * m * m)).powf(0.2) } else { f64::INFINITY };
+            let rect = if *b > 0.0 {
+                (q2 / (g * b * b)).cbrt()
+            } else {
+                f64::INFINITY
+            };
+            let tri = if *m > 0.0 {
+                (2.0 * q2 / (g * m * m)).powf(0.2)
+            } else {
+                f64::INFINITY
+            };
             let hi = rect.min(tri);
             single(brent(phi, hi * 1e-9, hi, 0.0)?)
         }
@@ -316,7 +329,11 @@ pub fn alternate_depths_m(
     // supercritical root is below the shallowest critical depth, the subcritical above the
     // deepest, and never deeper than E itself.
     let (y_lo, y_hi) = (crit[0], crit[crit.len() - 1]);
-    let supercritical_m = if f(y_lo) >= 0.0 { y_lo } else { brent(f, y_lo * 1e-12, y_lo, 0.0)? };
+    let supercritical_m = if f(y_lo) >= 0.0 {
+        y_lo
+    } else {
+        brent(f, y_lo * 1e-12, y_lo, 0.0)?
+    };
     let mut top = energy_m;
     if let Some(d) = section.full_depth_m() {
         if top >= d {
@@ -326,7 +343,11 @@ pub fn alternate_depths_m(
             }
         }
     }
-    let subcritical_m = if f(y_hi) >= 0.0 { y_hi } else { brent(f, y_hi, top, 0.0)? };
+    let subcritical_m = if f(y_hi) >= 0.0 {
+        y_hi
+    } else {
+        brent(f, y_hi, top, 0.0)?
+    };
     Ok(AlternateDepths {
         subcritical_m,
         supercritical_m,
@@ -408,7 +429,11 @@ mod tests {
         };
         let yc = critical_depths_m(&s, 5.0, 1.0, G).expect("ok")[0];
         assert_relative_eq!(yc, 0.7143239931, max_relative = 1e-9);
-        assert_relative_eq!(specific_energy_m(&s, yc, 5.0, 1.0, G), 0.9791141181, max_relative = 1e-9);
+        assert_relative_eq!(
+            specific_energy_m(&s, yc, 5.0, 1.0, G),
+            0.9791141181,
+            max_relative = 1e-9
+        );
         let alt = alternate_depths_m(&s, 1.5, 5.0, 1.0, G).expect("ok");
         assert_relative_eq!(alt.subcritical_m, 1.4663892, max_relative = 1e-7);
         assert_relative_eq!(alt.supercritical_m, 0.4133741, max_relative = 1e-6);
@@ -427,9 +452,33 @@ mod tests {
     fn critical_at_energy_matches_reference_ideal_throats() {
         // references.md §2.2 "ideal non-rectangular throats" (COMPUTED)
         let cases = [
-            (Section::Trapezoid { bottom_width_m: 0.3, side_slope: 1.0 }, 0.25, 0.1834935157, 0.1013254886),
-            (Section::Trapezoid { bottom_width_m: 0.3, side_slope: 1.0 }, 0.50, 0.3785144316, 0.3964415928),
-            (Section::Trapezoid { bottom_width_m: 2.0, side_slope: 1.5 }, 1.00, 0.7302967433, 5.1992524228),
+            (
+                Section::Trapezoid {
+                    bottom_width_m: 0.3,
+                    side_slope: 1.0,
+                },
+                0.25,
+                0.1834935157,
+                0.1013254886,
+            ),
+            (
+                Section::Trapezoid {
+                    bottom_width_m: 0.3,
+                    side_slope: 1.0,
+                },
+                0.50,
+                0.3785144316,
+                0.3964415928,
+            ),
+            (
+                Section::Trapezoid {
+                    bottom_width_m: 2.0,
+                    side_slope: 1.5,
+                },
+                1.00,
+                0.7302967433,
+                5.1992524228,
+            ),
             (Section::Circle { diameter_m: 1.0 }, 0.40, 0.2941910852, 0.2778286580),
             (Section::Circle { diameter_m: 1.0 }, 0.80, 0.5677418978, 0.9822876420),
         ];
@@ -468,7 +517,11 @@ mod tests {
         let roots = critical_depths_m(&s, 0.5, 1.0, G).expect("ok");
         assert_eq!(roots.len(), 2, "{roots:?}");
         assert_relative_eq!(roots[0], (0.25 / (G * 0.25)).cbrt(), max_relative = 1e-9);
-        assert_relative_eq!(roots[1], 0.5 + ((10.0 * 0.25 / G).cbrt() - 0.25) / 10.0, max_relative = 1e-9);
+        assert_relative_eq!(
+            roots[1],
+            0.5 + ((10.0 * 0.25 / G).cbrt() - 0.25) / 10.0,
+            max_relative = 1e-9
+        );
         for &y in &roots {
             assert_relative_eq!(froude_number(&s, y, 0.5, G), 1.0, max_relative = 1e-9);
         }
@@ -480,6 +533,10 @@ mod tests {
         let s = Section::Rectangle { width_m: 1000.0 };
         let y = normal_depth_m(&s, 1000.0, 0.03, 0.001).expect("ok");
         let r = s.hydraulic_radius_m(y);
-        assert_relative_eq!(1000.0 * y * r.powf(2.0 / 3.0) * 0.001f64.sqrt() / 0.03, 1000.0, max_relative = 1e-10);
+        assert_relative_eq!(
+            1000.0 * y * r.powf(2.0 / 3.0) * 0.001f64.sqrt() / 0.03,
+            1000.0,
+            max_relative = 1e-10
+        );
     }
 }

@@ -129,11 +129,7 @@ pub fn quadratic_roots(a: f64, b: f64, c: f64) -> Vec<f64> {
         return Vec::new();
     }
     let q = -0.5 * (b + b.signum() * disc.sqrt());
-    let mut roots = if q == 0.0 {
-        vec![0.0]
-    } else {
-        vec![q / a, c / q]
-    };
+    let mut roots = if q == 0.0 { vec![0.0] } else { vec![q / a, c / q] };
     roots.sort_by(f64::total_cmp);
     roots
 }

@@ -448,7 +448,12 @@ impl Section {
         let d = thickness_m;
         let too_large = GeometryError::OffsetTooLarge { thickness_m };
         let (section, rise) = match self {
-            Section::Rectangle { width_m } => (Section::Rectangle { width_m: width_m - 2.0 * d }, d),
+            Section::Rectangle { width_m } => (
+                Section::Rectangle {
+                    width_m: width_m - 2.0 * d,
+                },
+                d,
+            ),
             Section::Trapezoid {
                 bottom_width_m,
                 side_slope: m,
@@ -486,7 +491,10 @@ impl Section {
             Section::Trapezoid {
                 bottom_width_m,
                 side_slope,
-            } => format!("trapezoid, bed width {}, side slope {side_slope}:1 (H:V)", l(*bottom_width_m)),
+            } => format!(
+                "trapezoid, bed width {}, side slope {side_slope}:1 (H:V)",
+                l(*bottom_width_m)
+            ),
             Section::Triangle { side_slope } => format!("triangle (V), side slope {side_slope}:1 (H:V)"),
             Section::Circle { diameter_m } => format!("circle, diameter {}", l(*diameter_m)),
             Section::Points(p) => format!(
@@ -530,7 +538,8 @@ mod tests {
 
     #[test]
     fn points_trapezoid_equals_built_in_trapezoid() {
-        let p = Section::Points(PointsSection::new(&[(-2.0, 1.0), (-1.0, 0.0), (1.0, 0.0), (2.0, 1.0)]).expect("valid"));
+        let p =
+            Section::Points(PointsSection::new(&[(-2.0, 1.0), (-1.0, 0.0), (1.0, 0.0), (2.0, 1.0)]).expect("valid"));
         let t = Section::Trapezoid {
             bottom_width_m: 2.0,
             side_slope: 1.0,
@@ -545,14 +554,27 @@ mod tests {
             assert_relative_eq!(a, b, max_relative = 1e-14);
         }
         assert_relative_eq!(p.top_width_m(0.5), t.top_width_m(0.5), max_relative = 1e-14);
-        assert_relative_eq!(p.wetted_perimeter_m(0.5), t.wetted_perimeter_m(0.5), max_relative = 1e-14);
+        assert_relative_eq!(
+            p.wetted_perimeter_m(0.5),
+            t.wetted_perimeter_m(0.5),
+            max_relative = 1e-14
+        );
     }
 
     #[test]
     fn points_compound_section_with_flat_berm() {
         // main channel 2 m wide, 1 m deep, berms 3 m each side at height 1, banks vertical to 2 m
-        let p = PointsSection::new(&[(-4.0, 2.0), (-4.0, 1.0), (-1.0, 1.0), (-1.0, 0.0), (1.0, 0.0), (1.0, 1.0), (4.0, 1.0), (4.0, 2.0)])
-            .expect("valid");
+        let p = PointsSection::new(&[
+            (-4.0, 2.0),
+            (-4.0, 1.0),
+            (-1.0, 1.0),
+            (-1.0, 0.0),
+            (1.0, 0.0),
+            (1.0, 1.0),
+            (4.0, 1.0),
+            (4.0, 2.0),
+        ])
+        .expect("valid");
         let s = Section::Points(p);
         assert_relative_eq!(s.top_width_m(0.5), 2.0, max_relative = 1e-14);
         assert_relative_eq!(s.top_width_m(1.5), 8.0, max_relative = 1e-14);

@@ -218,6 +218,11 @@ impl RatingModel {
         let mut converged = false;
         for _ in 0..200 {
             let r = h - head_m - c * flow.discharge_m3s * flow.discharge_m3s;
+            // a residual at the rounding level of H: nothing left to gain
+            if r.abs() <= 4.0 * f64::EPSILON * h {
+                converged = true;
+                break;
+            }
             if r < 0.0 {
                 lo = lo.max(h);
             } else {
@@ -233,7 +238,7 @@ impl RatingModel {
                 // past the crest of the concave residual without finding a root
                 return Err(RatingError::ApproachChoked { head_m });
             };
-            let done = (next - h).abs() <= 1e-15 * h || r == 0.0;
+            let done = (next - h).abs() <= 4.0 * f64::EPSILON * h;
             h = next;
             flow = self.control_flow(h);
             if done || (hi.is_finite() && hi - lo <= 2e-16 * hi) {
@@ -291,7 +296,9 @@ mod tests {
             (1.0, 1.0, 0.15, 0.3, 1.1283437081, 0.3160434127),
         ];
         for (b, big_b, p, h, cv, q) in cases {
-            let pt = rect(b, big_b, p, 1.0, LossMethod::FixedCd(1.0)).point(h).expect("point");
+            let pt = rect(b, big_b, p, 1.0, LossMethod::FixedCd(1.0))
+                .point(h)
+                .expect("point");
             assert_relative_eq!(pt.discharge_m3s, q, max_relative = 1e-9);
             assert_relative_eq!(pt.cv, cv, max_relative = 1e-9);
             assert_relative_eq!(pt.cd, 1.0, max_relative = 1e-12);

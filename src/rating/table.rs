@@ -161,9 +161,18 @@ mod tests {
 
     #[test]
     fn head_sequence_rejects_bad_input() {
-        assert!(matches!(head_sequence(0.5, 0.1, 0.01), Err(HeadRangeError::Reversed { .. })));
-        assert!(matches!(head_sequence(0.1, 0.5, 0.0), Err(HeadRangeError::NotPositive { .. })));
-        assert!(matches!(head_sequence(0.1, 5000.0, 1e-6), Err(HeadRangeError::TooManyRows { .. })));
+        assert!(matches!(
+            head_sequence(0.5, 0.1, 0.01),
+            Err(HeadRangeError::Reversed { .. })
+        ));
+        assert!(matches!(
+            head_sequence(0.1, 0.5, 0.0),
+            Err(HeadRangeError::NotPositive { .. })
+        ));
+        assert!(matches!(
+            head_sequence(0.1, 5000.0, 1e-6),
+            Err(HeadRangeError::TooManyRows { .. })
+        ));
     }
 
     #[test]

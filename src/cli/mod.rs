@@ -1,0 +1,82 @@
+//! Command-line arguments (clap derive) and one module per command. No physics here: each
+//! command turns its arguments into library calls and writes what they return.
+
+mod check;
+mod output;
+mod rate;
+mod section;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+/// Head→discharge ratings for broad-crested weirs and long-throated flumes, from surveyed
+/// dimensions, by critical-flow theory.
+///
+/// Computed ratings must be confirmed by field gaugings; follow local codes and licensed
+/// professional practice where flows are used for compliance, billing or water rights.
+#[derive(Debug, Parser)]
+#[command(name = "flumerate", version, about, long_about)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// One cross-section: critical depth and energy, Froude number at a depth, alternate depths
+    /// at a specific energy, normal depth
+    Section(section::SectionArgs),
+    /// Head→discharge rating table for a station file
+    Rate(rate::RateArgs),
+    /// Validate a station file and report the limits of application of its method
+    Check(check::CheckArgs),
+}
+
+/// Output unit system.
+#[derive(Debug, Clone, Copy, ValueEnum, Default)]
+pub enum UnitsArg {
+    /// metres, m³/s
+    #[default]
+    Si,
+    /// feet, ft³/s
+    Us,
+}
+
+impl From<UnitsArg> for flumerate::units::Units {
+    fn from(u: UnitsArg) -> Self {
+        match u {
+            UnitsArg::Si => Self::Si,
+            UnitsArg::Us => Self::Us,
+        }
+    }
+}
+
+/// Where output goes.
+#[derive(Debug, Clone, clap::Args)]
+pub struct OutputArgs {
+    /// Write to FILE instead of standard output (written whole, then renamed into place)
+    #[arg(short = 'o', long = "output", value_name = "FILE")]
+    pub output: Option<PathBuf>,
+}
+
+/// Runs one command and returns the exit code.
+pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
+    match cli.command {
+        Command::Section(a) => section::run(a),
+        Command::Rate(a) => rate::run(a),
+        Command::Check(a) => check::run(a),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn verify_cli() {
+        Cli::command().debug_assert();
+    }
+}

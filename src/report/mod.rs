@@ -1,0 +1,52 @@
+//! Writers: each turns a computed result into bytes; the caller picks the destination.
+
+pub mod rating;
+
+/// The cautions printed with every rating (design.md, "Cautions shown to users").
+pub const CAUTIONS: &str = "CAUTION: a rating computed from dimensions is only as good as the survey and the \
+structure's condition. Confirm it by field gaugings before use; keep the structure clean and the approach free \
+of weed and sediment; follow local codes, the owner's safety rules for working in flowing water, and licensed \
+professional practice where flows are used for compliance, billing or water rights.";
+
+/// Formats `v` with `n` significant digits in plain (not exponent) notation.
+pub fn sig(v: f64, n: usize) -> String {
+    if !v.is_finite() {
+        return "-".to_string();
+    }
+    if v == 0.0 {
+        return format!("{:.*}", n.saturating_sub(1), 0.0);
+    }
+    let mag = v.abs().log10().floor() as i64;
+    let decimals = (n as i64 - 1 - mag).max(0) as usize;
+    format!("{v:.decimals$}")
+}
+
+/// Wraps `text` at `width` columns (on spaces).
+pub fn wrap(text: &str, width: usize) -> String {
+    let mut out = String::new();
+    let mut line = 0;
+    for word in text.split_whitespace() {
+        if line > 0 && line + 1 + word.chars().count() > width {
+            out.push('\n');
+            line = 0;
+        } else if line > 0 {
+            out.push(' ');
+            line += 1;
+        }
+        out.push_str(word);
+        line += word.chars().count();
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn significant_digits() {
+        assert_eq!(sig(0.0012345, 3), "0.00123");
+        assert_eq!(sig(123.456, 4), "123.5");
+        assert_eq!(sig(12345.6, 3), "12346");
+    }
+}

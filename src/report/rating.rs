@@ -1,0 +1,269 @@
+//! Rating tables as CSV, JSON and readable text.
+//!
+//! CSV and JSON carry every number at full precision (Rust's shortest round-trip form, which is
+//! exact and has up to 17 significant digits); text rounds for reading and ends with the cautions.
+
+use serde_json::{json, Map, Value};
+
+use super::{sig, wrap, CAUTIONS};
+use crate::rating::{LossMethod, RatingModel, RatingRow, RatingTable, StructureKind};
+use crate::units::Units;
+
+/// Everything a rating report shows.
+#[derive(Debug, Clone, Copy)]
+pub struct RatingReport<'a> {
+    /// Station name.
+    pub name: &'a str,
+    /// Station file path.
+    pub source: &'a str,
+    /// The model (for the structure summary).
+    pub model: &'a RatingModel,
+    /// The table.
+    pub table: &'a RatingTable,
+    /// Output units.
+    pub units: Units,
+}
+
+/// One output cell.
+enum Cell {
+    Num(f64),
+    Bool(bool),
+    Text(String),
+}
+
+impl RatingReport<'_> {
+    /// Column names, unit suffixes per design.md.
+    pub fn headers(&self) -> Vec<String> {
+        let (l, q, v) = (
+            self.units.length_suffix(),
+            self.units.discharge_suffix(),
+            self.units.velocity_suffix(),
+        );
+        vec![
+            format!("head_{l}"),
+            format!("discharge_{q}"),
+            format!("energy_head_{l}"),
+            format!("critical_depth_{l}"),
+            "cd".into(),
+            "cv".into(),
+            "froude_approach".into(),
+            format!("approach_velocity_{v}"),
+            "valid".into(),
+            "note".into(),
+        ]
+    }
+
+    fn cells(&self, row: &RatingRow) -> Vec<Cell> {
+        let u = self.units;
+        let p = row.point;
+        let num = |f: &dyn Fn(&crate::rating::RatingPoint) -> f64| Cell::Num(p.as_ref().map_or(f64::NAN, f));
+        vec![
+            Cell::Num(u.length_from_si(row.head_m)),
+            num(&|p| u.discharge_from_si(p.discharge_m3s)),
+            num(&|p| u.length_from_si(p.energy_head_m)),
+            num(&|p| u.length_from_si(p.critical_depth_m)),
+            num(&|p| p.cd),
+            num(&|p| p.cv),
+            num(&|p| p.froude_approach),
+            num(&|p| u.length_from_si(p.approach_velocity_m_s)),
+            Cell::Bool(row.valid),
+            Cell::Text(row.notes.join("; ")),
+        ]
+    }
+
+    /// One-line description of the loss method.
+    pub fn method_line(&self) -> String {
+        let s = self.model.structure();
+        let (lu, _) = self.units.symbols();
+        match s.loss {
+            LossMethod::BoundaryLayer {
+                displacement_thickness_m,
+            } => format!(
+                "critical flow with boundary-layer losses: δ* = {} {lu} = {}·L over every wetted boundary of the control (ISO 4359)",
+                sig(self.units.length_from_si(displacement_thickness_m), 3),
+                sig(displacement_thickness_m / s.control_length_m, 3)
+            ),
+            LossMethod::FixedCd(cd) => format!("critical flow with a fixed discharge coefficient Cd = {cd}"),
+        }
+    }
+
+    /// Structure summary lines.
+    pub fn structure_lines(&self) -> Vec<String> {
+        let s = self.model.structure();
+        let (lu, _) = self.units.symbols();
+        let per = self.units.length_from_si(1.0);
+        let kind = match s.kind {
+            StructureKind::Flume => "long-throated flume",
+            StructureKind::Weir => "broad-crested weir",
+        };
+        vec![
+            format!(
+                "structure: {kind}; control {}; length {} {lu}",
+                s.control.describe(lu, per),
+                sig(self.units.length_from_si(s.control_length_m), 4)
+            ),
+            format!(
+                "approach: {}; crest {} {lu} above the approach bed; alpha = {}",
+                s.approach.describe(lu, per),
+                sig(self.units.length_from_si(s.sill_height_m), 4),
+                s.approach_alpha
+            ),
+            format!("method: {}", self.method_line()),
+        ]
+    }
+
+    /// CSV with a header row; numbers at full precision, missing values empty.
+    pub fn to_csv(&self) -> Result<Vec<u8>, csv::Error> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        w.write_record(self.headers())?;
+        for row in &self.table.rows {
+            let rec: Vec<String> = self
+                .cells(row)
+                .into_iter()
+                .map(|c| match c {
+                    Cell::Num(v) if v.is_finite() => format!("{v}"),
+                    Cell::Num(_) => String::new(),
+                    Cell::Bool(b) => b.to_string(),
+                    Cell::Text(t) => t,
+                })
+                .collect();
+            w.write_record(&rec)?;
+        }
+        w.flush()?;
+        Ok(w.into_inner().map_err(|e| e.into_error())?)
+    }
+
+    /// The rating equation as JSON (in output units), or null.
+    fn equation_json(&self) -> Value {
+        let Some(eq) = self.table.equation else {
+            return Value::Null;
+        };
+        let (k, h0) = self.equation_in_units();
+        json!({
+            "form": "Q = K * (h + h0)^u",
+            "k": k,
+            format!("h0_{}", self.units.length_suffix()): h0,
+            "u": eq.u,
+            "max_relative_deviation": eq.max_relative_deviation,
+            "rows_fitted": eq.points,
+        })
+    }
+
+    /// K and h0 of the rating equation converted to the output units.
+    fn equation_in_units(&self) -> (f64, f64) {
+        let eq = self.table.equation.expect("caller checked");
+        // Q_u = Kq·K·(h_u·Lm + h0)^u with Lm = metres per unit: K_u = Kq·K·Lm^u
+        let lm = self.units.length_to_si(1.0);
+        let k = self.units.discharge_from_si(eq.k) * lm.powf(eq.u);
+        (k, self.units.length_from_si(eq.h0_m))
+    }
+
+    /// JSON: station, units, method, rows (one object per row), equation and cautions.
+    pub fn to_json(&self) -> Result<Vec<u8>, serde_json::Error> {
+        let headers = self.headers();
+        let rows: Vec<Value> = self
+            .table
+            .rows
+            .iter()
+            .map(|row| {
+                let mut m = Map::new();
+                for (h, c) in headers.iter().zip(self.cells(row)) {
+                    let v = match c {
+                        Cell::Num(v) if v.is_finite() => json!(v),
+                        Cell::Num(_) => Value::Null,
+                        Cell::Bool(b) => json!(b),
+                        Cell::Text(t) => json!(t),
+                    };
+                    m.insert(h.clone(), v);
+                }
+                Value::Object(m)
+            })
+            .collect();
+        let doc = json!({
+            "station": self.name,
+            "station_file": self.source,
+            "units": match self.units { Units::Si => "si", Units::Us => "us" },
+            "method": self.method_line(),
+            "rows": rows,
+            "equation": self.equation_json(),
+            "cautions": CAUTIONS,
+        });
+        let mut out = serde_json::to_vec_pretty(&doc)?;
+        out.push(b'\n');
+        Ok(out)
+    }
+
+    /// Readable text: header, rounded table, equation, cautions.
+    pub fn to_text(&self) -> Vec<u8> {
+        let u = self.units;
+        let (lu, qu) = u.symbols();
+        let mut s = String::new();
+        s.push_str(&format!("flumerate rating: {}\n", self.name));
+        s.push_str(&format!("station file: {}\n", self.source));
+        for line in self.structure_lines() {
+            s.push_str(&line);
+            s.push('\n');
+        }
+        s.push_str(&format!(
+            "units: head h1 and energy head H1 in {lu} above the crest, discharge Q in {qu}\n\n"
+        ));
+        s.push_str(&format!(
+            "{:>8} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}  {}\n",
+            format!("h1 {lu}"),
+            format!("Q {qu}"),
+            format!("H1 {lu}"),
+            format!("yc {lu}"),
+            "Cd",
+            "Cv",
+            "Fr1",
+            "valid",
+            "note"
+        ));
+        for row in &self.table.rows {
+            let p = row.point;
+            let f = |g: &dyn Fn(&crate::rating::RatingPoint) -> f64, digits: usize| {
+                p.as_ref().map_or("-".to_string(), |p| format!("{:.digits$}", g(p)))
+            };
+            s.push_str(&format!(
+                "{:>8.4} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}  {}\n",
+                u.length_from_si(row.head_m),
+                p.as_ref()
+                    .map_or("-".to_string(), |p| sig(u.discharge_from_si(p.discharge_m3s), 4)),
+                f(&|p| u.length_from_si(p.energy_head_m), 4),
+                f(&|p| u.length_from_si(p.critical_depth_m), 4),
+                f(&|p| p.cd, 4),
+                f(&|p| p.cv, 4),
+                f(&|p| p.froude_approach, 3),
+                if row.valid { "yes" } else { "NO" },
+                row.notes.join("; ")
+            ));
+        }
+        s.push('\n');
+        match self.table.equation {
+            Some(eq) => {
+                let (k, h0) = self.equation_in_units();
+                s.push_str(&format!(
+                    "rating equation over the {} valid rows: Q = {} * (h1 {} {})^{}  (Q in {qu}, h1 in {lu}); largest deviation from the table {} %\n",
+                    eq.points,
+                    sig(k, 5),
+                    if h0 < 0.0 { "-" } else { "+" },
+                    sig(h0.abs(), 3),
+                    sig(eq.u, 5),
+                    sig(eq.max_relative_deviation * 100.0, 2)
+                ));
+            }
+            None => s.push_str("rating equation: not fitted (fewer than 3 valid rows)\n"),
+        }
+        let invalid = self.table.invalid_rows();
+        if invalid > 0 {
+            s.push_str(&format!(
+                "{invalid} of {} rows lie outside the limits of application (valid = NO); run `flumerate check` for the limits and their sources\n",
+                self.table.rows.len()
+            ));
+        }
+        s.push('\n');
+        s.push_str(&wrap(CAUTIONS, 100));
+        s.push('\n');
+        s.into_bytes()
+    }
+}

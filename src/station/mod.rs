@@ -1,0 +1,997 @@
+//! Station files: TOML describing one gauging structure, loaded, checked and converted to SI.
+//!
+//! Parsing ([`Station::from_toml_str`]) is kept apart from reading the file ([`Station::load`]) so
+//! tests need no files. Every error names the file, the line and column, the key, the rule broken
+//! and the fix. The keys are listed in the README's station-file reference and in design.md.
+
+mod raw;
+
+use std::ops::Range;
+use std::path::Path;
+
+use raw::{Num, RawCoefficient, RawStation, Text};
+use toml::Spanned;
+
+use crate::hydraulics::{PointsSection, Section, STANDARD_GRAVITY_M_S2};
+use crate::rating::{LossMethod, Structure, StructureKind};
+
+/// ISO 4359's boundary-layer displacement thickness for a well-finished throat, δ*/L = 0.003
+/// (references.md §2.1, MEDIUM-HIGH).
+pub const ISO_4359_DISPLACEMENT_RATIO: f64 = 0.003;
+
+/// A length unit a station file may use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LengthUnit {
+    /// metre
+    Metre,
+    /// millimetre
+    Millimetre,
+    /// international foot, 0.3048 m exactly
+    Foot,
+    /// inch, 0.0254 m exactly
+    Inch,
+}
+
+impl LengthUnit {
+    /// Parses `m`, `mm`, `ft` or `in`.
+    pub fn parse(s: &str) -> Option<Self> {
+        match s {
+            "m" => Some(Self::Metre),
+            "mm" => Some(Self::Millimetre),
+            "ft" => Some(Self::Foot),
+            "in" => Some(Self::Inch),
+            _ => None,
+        }
+    }
+
+    /// Metres per unit (exact by definition for ft and in).
+    pub fn metres(self) -> f64 {
+        match self {
+            Self::Metre => 1.0,
+            Self::Millimetre => 0.001,
+            Self::Foot => 0.3048,
+            Self::Inch => 0.0254,
+        }
+    }
+
+    /// The unit's symbol.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            Self::Metre => "m",
+            Self::Millimetre => "mm",
+            Self::Foot => "ft",
+            Self::Inch => "in",
+        }
+    }
+}
+
+/// A station file is wrong: where, what and how to fix it.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{file}:{line}:{column}: {key}: {problem}\n  fix: {fix}")]
+pub struct StationError {
+    /// The file (or `<string>` when parsed from text).
+    pub file: String,
+    /// 1-based line.
+    pub line: usize,
+    /// 1-based column.
+    pub column: usize,
+    /// The key, as a dotted path (`control.width`), or the table.
+    pub key: String,
+    /// The rule broken.
+    pub problem: String,
+    /// How to fix it.
+    pub fix: String,
+}
+
+/// Heads the rating must serve (m above the crest).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HeadRange {
+    /// Lowest head (m).
+    pub min_head_m: f64,
+    /// Highest head (m).
+    pub max_head_m: f64,
+}
+
+/// The exit of the structure (used by the modular-limit check).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExitSpec {
+    /// Diverging transition 1:N; 0 for an abrupt exit.
+    pub expansion: f64,
+    /// A modular limit given in the file, overriding the computed one.
+    pub modular_limit: Option<f64>,
+}
+
+/// The channel or table that sets the tailwater level.
+#[derive(Debug, Clone, PartialEq)]
+pub enum TailwaterSpec {
+    /// A channel in uniform flow.
+    Channel {
+        /// Tailwater channel bed below the crest (m; negative when above).
+        bed_below_crest_m: f64,
+        /// Its cross-section.
+        section: Section,
+        /// Manning's n (s/m^(1/3)).
+        manning_n: f64,
+        /// Bed slope (m/m).
+        bed_slope: f64,
+    },
+    /// Measured (discharge m³/s, tailwater level above the crest m) pairs, discharge ascending.
+    Table(Vec<(f64, f64)>),
+}
+
+/// Expanded (k = 2) input uncertainties as given in the file; `None` where not given.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct UncertaintySpec {
+    /// Systematic, relative, on the discharge coefficient (%).
+    pub coefficient_pct: Option<f64>,
+    /// Systematic, gauge zero (mm).
+    pub zero_mm: Option<f64>,
+    /// Systematic, relative, on the control width (%).
+    pub dimension_pct: Option<f64>,
+    /// Random, one head reading (mm).
+    pub head_mm: Option<f64>,
+}
+
+/// How the station's logger export reads.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct LoggerSpec {
+    /// Name of the time column.
+    pub time_column: Option<String>,
+    /// strftime-style format of the time column.
+    pub time_format: Option<String>,
+    /// IANA zone name or fixed offset.
+    pub timezone: Option<String>,
+    /// Name of the stage column.
+    pub stage_column: Option<String>,
+    /// Unit of the stage column.
+    pub stage_unit: Option<String>,
+    /// Logger stage when the water is level with the crest, in the stage unit.
+    pub zero: Option<f64>,
+    /// Name of a logged tailwater column.
+    pub tailwater_column: Option<String>,
+    /// Strings that mean "no value".
+    pub missing: Vec<String>,
+    /// Field separator.
+    pub separator: Option<String>,
+    /// Decimal comma in numbers.
+    pub decimal_comma: bool,
+    /// Lines to skip before the header.
+    pub skip_lines: u32,
+}
+
+/// A loaded, checked station in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Station {
+    /// Free text shown on every output.
+    pub name: String,
+    /// Where it was read from.
+    pub source: String,
+    /// The file's length unit.
+    pub length_unit: LengthUnit,
+    /// The structure, ready for [`crate::rating::RatingModel::new`].
+    pub structure: Structure,
+    /// Heads the rating must serve.
+    pub range: HeadRange,
+    /// The exit.
+    pub exit: ExitSpec,
+    /// The tailwater, if given.
+    pub tailwater: Option<TailwaterSpec>,
+    /// Input uncertainties.
+    pub uncertainty: UncertaintySpec,
+    /// Logger settings, if given.
+    pub logger: Option<LoggerSpec>,
+}
+
+impl Station {
+    /// Reads and checks a station file.
+    pub fn load(path: &Path) -> Result<Self, LoadError> {
+        let text = std::fs::read_to_string(path).map_err(|source| LoadError::Read {
+            path: path.display().to_string(),
+            source,
+        })?;
+        Ok(Self::from_toml_str(&text, &path.display().to_string())?)
+    }
+
+    /// Parses and checks station-file text; `file` names it in errors.
+    pub fn from_toml_str(text: &str, file: &str) -> Result<Self, StationError> {
+        let ctx = Ctx { file, text };
+        let raw: RawStation = toml::from_str(text).map_err(|e| {
+            let span = e.span().unwrap_or(0..0);
+            let msg = e.message().to_string();
+            let fix = if msg.contains("unknown field") {
+                "check the spelling against the station-file reference in README.md; keys are lower case with underscores"
+            } else if msg.contains("invalid type") {
+                "give numbers without quotes (width = 0.6) and names in quotes (shape = \"rectangle\")"
+            } else if msg.contains("invalid length") {
+                "write each point or table row as a pair [a, b]"
+            } else {
+                "correct the TOML syntax at this place (see README.md for an example station file)"
+            };
+            ctx.err(span, "TOML", msg.trim_end(), fix)
+        })?;
+        ctx.build(raw)
+    }
+}
+
+/// Reading a station file failed.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum LoadError {
+    /// The file could not be read.
+    #[error(
+        "cannot read station file {path}: {source}\n  fix: check the path; station files usually live in ratings/"
+    )]
+    Read {
+        /// The path.
+        path: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// The file is not a valid station file.
+    #[error(transparent)]
+    Invalid(#[from] StationError),
+}
+
+struct Ctx<'a> {
+    file: &'a str,
+    text: &'a str,
+}
+
+/// The shape keys shared by `[control]`, `[approach]` and `[tailwater]`.
+struct ShapeKeys<'a> {
+    table: &'static str,
+    span: Range<usize>,
+    shape: Option<&'a Text>,
+    width: Option<&'a Num>,
+    side_slope: Option<&'a Num>,
+    diameter: Option<&'a Num>,
+    points: Option<&'a Spanned<Vec<[f64; 2]>>>,
+}
+
+impl Ctx<'_> {
+    fn err(&self, span: Range<usize>, key: &str, problem: impl Into<String>, fix: impl Into<String>) -> StationError {
+        let upto = &self.text[..span.start.min(self.text.len())];
+        let line = upto.matches('\n').count() + 1;
+        let column = upto.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        StationError {
+            file: self.file.to_string(),
+            line,
+            column,
+            key: key.to_string(),
+            problem: problem.into(),
+            fix: fix.into(),
+        }
+    }
+
+    fn missing(&self, span: Range<usize>, key: &str, fix: &str) -> StationError {
+        self.err(span, key, "this key is required here but missing", fix)
+    }
+
+    /// A finite number.
+    fn number(&self, n: &Num, key: &str) -> Result<f64, StationError> {
+        let v = *n.get_ref();
+        if v.is_finite() {
+            Ok(v)
+        } else {
+            Err(self.err(
+                n.span(),
+                key,
+                format!("{v} is not a finite number"),
+                "give an ordinary decimal number",
+            ))
+        }
+    }
+
+    /// A number within `[lo, hi]` (bounds inclusive unless `open_lo`).
+    fn bounded(&self, n: &Num, key: &str, lo: f64, hi: f64, open_lo: bool, why: &str) -> Result<f64, StationError> {
+        let v = self.number(n, key)?;
+        let ok = if open_lo { v > lo } else { v >= lo } && v <= hi;
+        if ok {
+            Ok(v)
+        } else {
+            let lo_word = if open_lo { "greater than" } else { "at least" };
+            Err(self.err(
+                n.span(),
+                key,
+                format!("{v} is out of range: it must be {lo_word} {lo} and at most {hi}"),
+                why.to_string(),
+            ))
+        }
+    }
+
+    /// A length > 0 in the file's unit, returned in metres.
+    fn positive_length(&self, n: &Num, key: &str, unit: LengthUnit, fix: &str) -> Result<f64, StationError> {
+        let v = self.number(n, key)?;
+        if v > 0.0 {
+            Ok(v * unit.metres())
+        } else {
+            Err(self.err(
+                n.span(),
+                key,
+                format!(
+                    "{v} {} is not a usable dimension: it must be greater than zero",
+                    unit.symbol()
+                ),
+                fix.to_string(),
+            ))
+        }
+    }
+
+    fn forbid<T>(&self, v: Option<&Spanned<T>>, key: &str, shape: &str, hint: &str) -> Result<(), StationError> {
+        match v {
+            Some(s) => Err(self.err(
+                s.span(),
+                key,
+                format!(
+                    "`{}` is not used by shape \"{shape}\"",
+                    key.rsplit('.').next().unwrap_or(key)
+                ),
+                format!("remove it, or {hint}"),
+            )),
+            None => Ok(()),
+        }
+    }
+
+    fn section(&self, k: ShapeKeys, unit: LengthUnit) -> Result<Section, StationError> {
+        let t = k.table;
+        let key = |name: &str| format!("{t}.{name}");
+        let Some(shape) = k.shape else {
+            return Err(self.missing(
+                k.span.clone(),
+                &key("shape"),
+                "add shape = \"rectangle\", \"trapezoid\", \"triangle\", \"circle\" or \"points\"",
+            ));
+        };
+        let name = shape.get_ref().as_str();
+        let need = |v: Option<&Num>, what: &str, fix: &str| -> Result<f64, StationError> {
+            match v {
+                Some(n) => self.positive_length(n, &key(what), unit, fix),
+                None => Err(self.missing(k.span.clone(), &key(what), fix)),
+            }
+        };
+        let slope = |v: Option<&Num>, allow_zero: bool| -> Result<f64, StationError> {
+            let fix = "give the side slope as horizontal per 1 vertical, e.g. side_slope = 1.5";
+            match v {
+                Some(n) => {
+                    let s = self.number(n, &key("side_slope"))?;
+                    if s > 0.0 || (allow_zero && s == 0.0) {
+                        Ok(s)
+                    } else {
+                        Err(self.err(
+                            n.span(),
+                            &key("side_slope"),
+                            format!(
+                                "side slope {s} must be {}",
+                                if allow_zero {
+                                    "zero or more"
+                                } else {
+                                    "greater than zero"
+                                }
+                            ),
+                            fix,
+                        ))
+                    }
+                }
+                None => Err(self.missing(k.span.clone(), &key("side_slope"), fix)),
+            }
+        };
+        let section = match name {
+            "rectangle" => {
+                self.forbid(k.side_slope, &key("side_slope"), name, "use shape = \"trapezoid\"")?;
+                self.forbid(k.diameter, &key("diameter"), name, "use shape = \"circle\"")?;
+                self.forbid(k.points, &key("points"), name, "use shape = \"points\"")?;
+                Section::Rectangle {
+                    width_m: need(k.width, "width", "give the width between the walls, e.g. width = 0.60")?,
+                }
+            }
+            "trapezoid" => {
+                self.forbid(k.diameter, &key("diameter"), name, "use shape = \"circle\"")?;
+                self.forbid(k.points, &key("points"), name, "use shape = \"points\"")?;
+                Section::Trapezoid {
+                    bottom_width_m: need(k.width, "width", "give the bed (bottom) width, e.g. width = 0.60")?,
+                    side_slope: slope(k.side_slope, true)?,
+                }
+            }
+            "triangle" => {
+                self.forbid(k.width, &key("width"), name, "use shape = \"trapezoid\" for a flat bed")?;
+                self.forbid(k.diameter, &key("diameter"), name, "use shape = \"circle\"")?;
+                self.forbid(k.points, &key("points"), name, "use shape = \"points\"")?;
+                Section::Triangle {
+                    side_slope: slope(k.side_slope, false)?,
+                }
+            }
+            "circle" => {
+                self.forbid(k.width, &key("width"), name, "give only diameter")?;
+                self.forbid(k.side_slope, &key("side_slope"), name, "give only diameter")?;
+                self.forbid(k.points, &key("points"), name, "use shape = \"points\"")?;
+                Section::Circle {
+                    diameter_m: need(k.diameter, "diameter", "give the inside diameter, e.g. diameter = 0.45")?,
+                }
+            }
+            "points" => {
+                self.forbid(k.width, &key("width"), name, "describe the section by its points only")?;
+                self.forbid(
+                    k.side_slope,
+                    &key("side_slope"),
+                    name,
+                    "describe the section by its points only",
+                )?;
+                self.forbid(
+                    k.diameter,
+                    &key("diameter"),
+                    name,
+                    "describe the section by its points only",
+                )?;
+                let Some(pts) = k.points else {
+                    return Err(self.missing(
+                        k.span.clone(),
+                        &key("points"),
+                        "give points = [[offset, height], ...] from left bank to right bank, heights above the lowest point",
+                    ));
+                };
+                self.points(pts, &key("points"), unit)?
+            }
+            other => {
+                return Err(self.err(
+                    shape.span(),
+                    &key("shape"),
+                    format!("unknown shape \"{other}\""),
+                    "use one of \"rectangle\", \"trapezoid\", \"triangle\", \"circle\", \"points\"",
+                ))
+            }
+        };
+        Ok(section)
+    }
+
+    fn points(&self, pts: &Spanned<Vec<[f64; 2]>>, key: &str, unit: LengthUnit) -> Result<Section, StationError> {
+        let list = pts.get_ref();
+        let span = pts.span();
+        if list.len() < 3 {
+            return Err(self.err(
+                span,
+                key,
+                format!(
+                    "{} point(s) cannot describe a section: at least 3 are needed",
+                    list.len()
+                ),
+                "list the left bank top, the bed points and the right bank top",
+            ));
+        }
+        for (i, p) in list.iter().enumerate() {
+            if !(p[0].is_finite() && p[1].is_finite()) {
+                return Err(self.err(
+                    span,
+                    key,
+                    format!("point {} is not finite", i + 1),
+                    "give ordinary numbers",
+                ));
+            }
+            if i > 0 && p[0] < list[i - 1][0] {
+                return Err(self.err(
+                    span,
+                    key,
+                    format!(
+                        "point {} has offset {} after offset {}: offsets must not decrease",
+                        i + 1,
+                        p[0],
+                        list[i - 1][0]
+                    ),
+                    "order the points from the left bank to the right bank; a vertical wall repeats an offset",
+                ));
+            }
+        }
+        let lowest = list.iter().map(|p| p[1]).fold(f64::INFINITY, f64::min);
+        if lowest.abs() > 1e-9 {
+            return Err(self.err(
+                span,
+                key,
+                format!("the lowest point has height {lowest}, but heights are measured above the crest"),
+                format!("subtract {lowest} from every height so the lowest point is at 0"),
+            ));
+        }
+        let m = unit.metres();
+        let scaled: Vec<(f64, f64)> = list.iter().map(|p| (p[0] * m, p[1] * m)).collect();
+        PointsSection::new(&scaled)
+            .map(Section::Points)
+            .map_err(|e| self.err(span, key, e.to_string(), "check the surveyed points"))
+    }
+
+    fn build(&self, raw: RawStation) -> Result<Station, StationError> {
+        let doc = 0..0;
+        let name = match &raw.name {
+            Some(n) if !n.get_ref().trim().is_empty() => n.get_ref().trim().to_string(),
+            Some(n) => {
+                return Err(self.err(
+                    n.span(),
+                    "name",
+                    "the name is empty",
+                    "give the station a name shown on outputs",
+                ))
+            }
+            None => return Err(self.missing(doc, "name", "add name = \"...\" at the top of the file")),
+        };
+        let unit = match &raw.length_unit {
+            Some(u) => LengthUnit::parse(u.get_ref()).ok_or_else(|| {
+                self.err(
+                    u.span(),
+                    "length_unit",
+                    format!("unknown length unit \"{}\"", u.get_ref()),
+                    "use \"m\", \"mm\", \"ft\" or \"in\"",
+                )
+            })?,
+            None => {
+                return Err(self.missing(
+                    0..0,
+                    "length_unit",
+                    "add length_unit = \"m\" (or \"mm\", \"ft\", \"in\")",
+                ));
+            }
+        };
+        let gravity = match &raw.gravity_m_s2 {
+            Some(g) => self.bounded(
+                g,
+                "gravity_m_s2",
+                9.7,
+                9.9,
+                false,
+                "give local gravity in m/s² (9.78 to 9.84 on Earth), or remove the key for 9.80665",
+            )?,
+            None => STANDARD_GRAVITY_M_S2,
+        };
+
+        // [control]
+        let Some(control) = &raw.control else {
+            return Err(self.missing(
+                0..0,
+                "[control]",
+                "add a [control] table describing the throat or crest",
+            ));
+        };
+        let cspan = control.span();
+        let c = control.get_ref();
+        let control_section = self.section(
+            ShapeKeys {
+                table: "control",
+                span: cspan.clone(),
+                shape: c.shape.as_ref(),
+                width: c.width.as_ref(),
+                side_slope: c.side_slope.as_ref(),
+                diameter: c.diameter.as_ref(),
+                points: c.points.as_ref(),
+            },
+            unit,
+        )?;
+        let length_m = match &c.length {
+            Some(l) => self.positive_length(
+                l,
+                "control.length",
+                unit,
+                "give the crest or throat length in the flow direction",
+            )?,
+            None => return Err(self.missing(
+                cspan,
+                "control.length",
+                "add length = the crest or throat length in the flow direction (needed for the losses and the limits)",
+            )),
+        };
+        if let Some(r) = &c.roughness {
+            return Err(self.err(
+                r.span(),
+                "control.roughness",
+                "computing the boundary layer from a roughness height is not supported yet (its relations are not yet cited in flumerate)",
+                "remove roughness and give displacement_ratio = δ*/L instead (0.003 for a well-finished throat, ISO 4359)",
+            ));
+        }
+        let loss = match c.coefficient.as_ref().map(|s| (s.get_ref(), s.span())) {
+            None => None,
+            Some((RawCoefficient::Text(t), _)) if t == "boundary-layer" => None,
+            Some((RawCoefficient::Text(t), span)) => {
+                return Err(self.err(
+                    span,
+                    "control.coefficient",
+                    format!("unknown coefficient method \"{t}\""),
+                    "use coefficient = \"boundary-layer\" or a fixed discharge coefficient such as coefficient = 0.98",
+                ))
+            }
+            Some((RawCoefficient::Number(cd), span)) => {
+                if !(cd.is_finite() && *cd > 0.0 && *cd <= 1.5) {
+                    return Err(self.err(
+                        span,
+                        "control.coefficient",
+                        format!("a discharge coefficient of {cd} is out of range: it must be greater than 0 and at most 1.5"),
+                        "give Cd as a plain ratio, e.g. 0.98 (not a percentage)",
+                    ));
+                }
+                if let Some(d) = &c.displacement_ratio {
+                    return Err(self.err(
+                        d.span(),
+                        "control.displacement_ratio",
+                        "displacement_ratio belongs to the boundary-layer method, but coefficient is a fixed number",
+                        "remove displacement_ratio, or set coefficient = \"boundary-layer\"",
+                    ));
+                }
+                Some(LossMethod::FixedCd(*cd))
+            }
+        };
+        let loss = match loss {
+            Some(l) => l,
+            None => {
+                let ratio = match &c.displacement_ratio {
+                    Some(d) => self.bounded(
+                        d,
+                        "control.displacement_ratio",
+                        0.0,
+                        0.02,
+                        false,
+                        "give δ*/L between 0 and 0.02; ISO 4359 uses 0.003 for a well-finished throat",
+                    )?,
+                    None => ISO_4359_DISPLACEMENT_RATIO,
+                };
+                LossMethod::BoundaryLayer {
+                    displacement_thickness_m: ratio * length_m,
+                }
+            }
+        };
+        let kind = match &c.structure {
+            None => StructureKind::Flume,
+            Some(s) => match s.get_ref().as_str() {
+                "flume" => StructureKind::Flume,
+                "weir" => StructureKind::Weir,
+                other => {
+                    return Err(self.err(
+                        s.span(),
+                        "control.structure",
+                        format!("unknown structure \"{other}\""),
+                        "use structure = \"flume\" (long-throated flume) or \"weir\" (broad-crested weir)",
+                    ))
+                }
+            },
+        };
+
+        // [approach]
+        let Some(approach) = &raw.approach else {
+            return Err(self.missing(
+                0..0,
+                "[approach]",
+                "add an [approach] table: the channel at the head-measurement section, with its shape and sill_height",
+            ));
+        };
+        let aspan = approach.span();
+        let a = approach.get_ref();
+        let approach_section = self.section(
+            ShapeKeys {
+                table: "approach",
+                span: aspan.clone(),
+                shape: a.shape.as_ref(),
+                width: a.width.as_ref(),
+                side_slope: a.side_slope.as_ref(),
+                diameter: a.diameter.as_ref(),
+                points: a.points.as_ref(),
+            },
+            unit,
+        )?;
+        let sill_height_m = match &a.sill_height {
+            Some(p) => {
+                let v = self.number(p, "approach.sill_height")?;
+                if v < 0.0 {
+                    return Err(self.err(
+                        p.span(),
+                        "approach.sill_height",
+                        format!("{v} {} would put the crest below the approach bed", unit.symbol()),
+                        "give the height of the crest above the approach bed (0 for a flume with no hump)",
+                    ));
+                }
+                v * unit.metres()
+            }
+            None => {
+                return Err(self.missing(
+                    aspan,
+                    "approach.sill_height",
+                    "add sill_height = height of the crest above the approach bed (p1); 0 if level",
+                ))
+            }
+        };
+        let alpha = match &a.alpha {
+            Some(n) => self.bounded(
+                n,
+                "approach.alpha",
+                1.0,
+                2.0,
+                false,
+                "the Coriolis coefficient is 1.0 for uniform velocity and rarely above 1.2 in an approach channel",
+            )?,
+            None => 1.0,
+        };
+
+        // [range]
+        let Some(range) = &raw.range else {
+            return Err(self.missing(0..0, "[range]", "add a [range] table with min_head and max_head"));
+        };
+        let r = range.get_ref();
+        let min_head_m = match &r.min_head {
+            Some(n) => self.positive_length(
+                n,
+                "range.min_head",
+                unit,
+                "heads are measured above the crest: give the lowest head the rating must serve",
+            )?,
+            None => {
+                return Err(self.missing(
+                    range.span(),
+                    "range.min_head",
+                    "add min_head = the lowest head the rating must serve",
+                ))
+            }
+        };
+        let max_head_m = match &r.max_head {
+            Some(n) => {
+                let v =
+                    self.positive_length(n, "range.max_head", unit, "give the highest head the rating must serve")?;
+                if v <= min_head_m {
+                    return Err(self.err(
+                        n.span(),
+                        "range.max_head",
+                        "max_head must be above min_head",
+                        "swap the two values or correct one of them",
+                    ));
+                }
+                v
+            }
+            None => {
+                return Err(self.missing(
+                    range.span(),
+                    "range.max_head",
+                    "add max_head = the highest head the rating must serve",
+                ))
+            }
+        };
+
+        // [exit]
+        let exit = match &raw.exit {
+            None => ExitSpec {
+                expansion: 0.0,
+                modular_limit: None,
+            },
+            Some(e) => {
+                let e = e.get_ref();
+                ExitSpec {
+                    expansion: match &e.expansion {
+                        Some(n) => self.bounded(
+                            n,
+                            "exit.expansion",
+                            0.0,
+                            50.0,
+                            false,
+                            "give N of a 1:N diverging transition (e.g. 6), or 0 for an abrupt exit",
+                        )?,
+                        None => 0.0,
+                    },
+                    modular_limit: match &e.modular_limit {
+                        Some(n) => Some(self.bounded(
+                            n,
+                            "exit.modular_limit",
+                            0.0,
+                            1.0,
+                            true,
+                            "give the modular limit as a ratio H2/H1 between 0 and 1, e.g. 0.8",
+                        )?),
+                        None => None,
+                    },
+                }
+            }
+        };
+
+        let tailwater = match &raw.tailwater {
+            None => None,
+            Some(t) => Some(self.tailwater(t, unit)?),
+        };
+
+        let uncertainty = match &raw.uncertainty {
+            None => UncertaintySpec::default(),
+            Some(u) => {
+                let u = u.get_ref();
+                let pct = |n: &Option<Num>, key: &str| -> Result<Option<f64>, StationError> {
+                    n.as_ref()
+                        .map(|n| {
+                            self.bounded(
+                                n,
+                                key,
+                                0.0,
+                                100.0,
+                                false,
+                                "give an expanded (95 %) uncertainty, zero or more",
+                            )
+                        })
+                        .transpose()
+                };
+                UncertaintySpec {
+                    coefficient_pct: pct(&u.coefficient_pct, "uncertainty.coefficient_pct")?,
+                    zero_mm: pct(&u.zero_mm, "uncertainty.zero_mm")?,
+                    dimension_pct: pct(&u.dimension_pct, "uncertainty.dimension_pct")?,
+                    head_mm: pct(&u.head_mm, "uncertainty.head_mm")?,
+                }
+            }
+        };
+
+        let logger = match &raw.logger {
+            None => None,
+            Some(l) => Some(self.logger(l)?),
+        };
+
+        Ok(Station {
+            name,
+            source: self.file.to_string(),
+            length_unit: unit,
+            structure: Structure {
+                control: control_section,
+                control_length_m: length_m,
+                approach: approach_section,
+                sill_height_m,
+                approach_alpha: alpha,
+                loss,
+                kind,
+                gravity_m_s2: gravity,
+            },
+            range: HeadRange { min_head_m, max_head_m },
+            exit,
+            tailwater,
+            uncertainty,
+            logger,
+        })
+    }
+
+    fn tailwater(&self, t: &Spanned<raw::RawTailwater>, unit: LengthUnit) -> Result<TailwaterSpec, StationError> {
+        let span = t.span();
+        let t = t.get_ref();
+        if let Some(table) = &t.table {
+            for (v, key) in [
+                (t.shape.as_ref().map(|s| s.span()), "tailwater.shape"),
+                (t.manning_n.as_ref().map(|s| s.span()), "tailwater.manning_n"),
+                (t.bed_slope.as_ref().map(|s| s.span()), "tailwater.bed_slope"),
+            ] {
+                if let Some(sp) = v {
+                    return Err(self.err(
+                        sp,
+                        key,
+                        "a tailwater table and a tailwater channel are given together",
+                        "keep either table = [[discharge, level], ...] or the channel keys, not both",
+                    ));
+                }
+            }
+            let rows = table.get_ref();
+            if rows.len() < 2 {
+                return Err(self.err(
+                    table.span(),
+                    "tailwater.table",
+                    "a tailwater table needs at least 2 rows",
+                    "give [discharge m³/s, tailwater level above the crest] pairs covering the rating's discharges",
+                ));
+            }
+            for (i, w) in rows.windows(2).enumerate() {
+                if !(w[1][0] > w[0][0]) || w[1][1] < w[0][1] || !w[1][0].is_finite() || !w[1][1].is_finite() {
+                    return Err(self.err(
+                        table.span(),
+                        "tailwater.table",
+                        format!(
+                            "rows {} and {} are not monotone: discharge must rise and the level must not fall",
+                            i + 1,
+                            i + 2
+                        ),
+                        "sort the rows by discharge and check the levels",
+                    ));
+                }
+            }
+            if rows[0][0] < 0.0 {
+                return Err(self.err(
+                    table.span(),
+                    "tailwater.table",
+                    "a discharge in the table is negative",
+                    "give discharges in m³/s, zero or more",
+                ));
+            }
+            return Ok(TailwaterSpec::Table(
+                rows.iter().map(|r| (r[0], r[1] * unit.metres())).collect(),
+            ));
+        }
+        let section = self.section(
+            ShapeKeys {
+                table: "tailwater",
+                span: span.clone(),
+                shape: t.shape.as_ref(),
+                width: t.width.as_ref(),
+                side_slope: t.side_slope.as_ref(),
+                diameter: t.diameter.as_ref(),
+                points: t.points.as_ref(),
+            },
+            unit,
+        )?;
+        let bed = match &t.bed_below_crest {
+            Some(n) => self.number(n, "tailwater.bed_below_crest")? * unit.metres(),
+            None => {
+                return Err(self.missing(
+                    span,
+                    "tailwater.bed_below_crest",
+                    "add bed_below_crest = how far the tailwater channel bed lies below the crest",
+                ))
+            }
+        };
+        let n = match &t.manning_n {
+            Some(n) => self.bounded(
+                n,
+                "tailwater.manning_n",
+                0.0,
+                0.5,
+                true,
+                "Manning's n is greater than 0 (0.012 concrete to about 0.1 weedy channels)",
+            )?,
+            None => {
+                return Err(self.missing(
+                    span,
+                    "tailwater.manning_n",
+                    "add manning_n = roughness of the tailwater channel, e.g. 0.030",
+                ))
+            }
+        };
+        let s = match &t.bed_slope {
+            Some(n) => self.bounded(
+                n,
+                "tailwater.bed_slope",
+                0.0,
+                0.5,
+                true,
+                "give the bed slope as a positive ratio, e.g. 0.0008 (m per m)",
+            )?,
+            None => {
+                return Err(self.missing(
+                    span,
+                    "tailwater.bed_slope",
+                    "add bed_slope = slope of the tailwater channel bed, e.g. 0.0008",
+                ))
+            }
+        };
+        Ok(TailwaterSpec::Channel {
+            bed_below_crest_m: bed,
+            section,
+            manning_n: n,
+            bed_slope: s,
+        })
+    }
+
+    fn logger(&self, l: &Spanned<raw::RawLogger>) -> Result<LoggerSpec, StationError> {
+        let l = l.get_ref();
+        let s = |t: &Option<Text>| t.as_ref().map(|t| t.get_ref().clone());
+        if let Some(u) = &l.stage_unit {
+            if !["m", "cm", "mm", "ft", "in"].contains(&u.get_ref().as_str()) {
+                return Err(self.err(
+                    u.span(),
+                    "logger.stage_unit",
+                    format!("unknown stage unit \"{}\"", u.get_ref()),
+                    "use \"m\", \"cm\", \"mm\", \"ft\" or \"in\"",
+                ));
+            }
+        }
+        if let Some(sep) = &l.separator {
+            if sep.get_ref().chars().count() != 1 {
+                return Err(self.err(
+                    sep.span(),
+                    "logger.separator",
+                    "the separator must be a single character",
+                    "use separator = \",\" or \";\" or \"\\t\"",
+                ));
+            }
+        }
+        Ok(LoggerSpec {
+            time_column: s(&l.time_column),
+            time_format: s(&l.time_format),
+            timezone: s(&l.timezone),
+            stage_column: s(&l.stage_column),
+            stage_unit: s(&l.stage_unit),
+            zero: l.zero.as_ref().map(|z| self.number(z, "logger.zero")).transpose()?,
+            tailwater_column: s(&l.tailwater_column),
+            missing: l.missing.as_ref().map(|m| m.get_ref().clone()).unwrap_or_default(),
+            separator: s(&l.separator),
+            decimal_comma: l.decimal_comma.as_ref().is_some_and(|d| *d.get_ref()),
+            skip_lines: l.skip_lines.as_ref().map_or(0, |d| *d.get_ref()),
+        })
+    }
+}

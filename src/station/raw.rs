@@ -1,0 +1,124 @@
+//! The station file exactly as written: serde structs with source spans, before any checking or
+//! unit conversion. Every key is optional here so that a missing key gets our own message (with
+//! its fix) instead of serde's.
+
+use serde::Deserialize;
+use toml::Spanned;
+
+/// A number that may be given with a span.
+pub type Num = Spanned<f64>;
+/// A string with its span.
+pub type Text = Spanned<String>;
+
+/// `coefficient = "boundary-layer"` or `coefficient = 0.98`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+pub enum RawCoefficient {
+    /// A fixed discharge coefficient.
+    Number(f64),
+    /// A method name.
+    Text(String),
+}
+
+/// The top level of a station file.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawStation {
+    pub name: Option<Text>,
+    pub length_unit: Option<Text>,
+    pub gravity_m_s2: Option<Num>,
+    pub control: Option<Spanned<RawControl>>,
+    pub approach: Option<Spanned<RawApproach>>,
+    pub exit: Option<Spanned<RawExit>>,
+    pub tailwater: Option<Spanned<RawTailwater>>,
+    pub range: Option<Spanned<RawRange>>,
+    pub uncertainty: Option<Spanned<RawUncertainty>>,
+    pub logger: Option<Spanned<RawLogger>>,
+}
+
+/// `[control]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawControl {
+    pub shape: Option<Text>,
+    pub width: Option<Num>,
+    pub side_slope: Option<Num>,
+    pub diameter: Option<Num>,
+    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub length: Option<Num>,
+    pub coefficient: Option<Spanned<RawCoefficient>>,
+    pub displacement_ratio: Option<Num>,
+    pub roughness: Option<Num>,
+    pub structure: Option<Text>,
+}
+
+/// `[approach]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawApproach {
+    pub shape: Option<Text>,
+    pub width: Option<Num>,
+    pub side_slope: Option<Num>,
+    pub diameter: Option<Num>,
+    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub sill_height: Option<Num>,
+    pub alpha: Option<Num>,
+}
+
+/// `[exit]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawExit {
+    pub expansion: Option<Num>,
+    pub modular_limit: Option<Num>,
+}
+
+/// `[tailwater]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawTailwater {
+    pub bed_below_crest: Option<Num>,
+    pub shape: Option<Text>,
+    pub width: Option<Num>,
+    pub side_slope: Option<Num>,
+    pub diameter: Option<Num>,
+    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub manning_n: Option<Num>,
+    pub bed_slope: Option<Num>,
+    pub table: Option<Spanned<Vec<[f64; 2]>>>,
+}
+
+/// `[range]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawRange {
+    pub min_head: Option<Num>,
+    pub max_head: Option<Num>,
+}
+
+/// `[uncertainty]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawUncertainty {
+    pub coefficient_pct: Option<Num>,
+    pub zero_mm: Option<Num>,
+    pub dimension_pct: Option<Num>,
+    pub head_mm: Option<Num>,
+}
+
+/// `[logger]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawLogger {
+    pub time_column: Option<Text>,
+    pub time_format: Option<Text>,
+    pub timezone: Option<Text>,
+    pub stage_column: Option<Text>,
+    pub stage_unit: Option<Text>,
+    pub zero: Option<Num>,
+    pub tailwater_column: Option<Text>,
+    pub missing: Option<Spanned<Vec<String>>>,
+    pub separator: Option<Text>,
+    pub decimal_comma: Option<Spanned<bool>>,
+    pub skip_lines: Option<Spanned<u32>>,
+}
