@@ -1,1 +1,10 @@
+//! flumerate's integration tests: one test binary (every test target links the whole crate),
+//! with one module per area. Values checked against outside sources name the source beside them.
 
+mod common;
+mod integration {
+    pub mod cli;
+    pub mod malformed;
+    pub mod properties;
+    pub mod references;
+}

@@ -34,6 +34,9 @@ pub enum RootError {
 /// and bisection, Brent 1973 ch. 4), to an absolute tolerance of about `4·ε·|x| + tol`.
 ///
 /// `f(a)` and `f(b)` must have opposite signs (or one of them be zero).
+// Brent's algorithm tests `a == c` exactly: it asks whether two stored iterates are the same
+// point (then only a secant step is possible), not whether two computed values are close.
+#[allow(clippy::float_cmp)]
 pub fn brent<F: FnMut(f64) -> f64>(mut f: F, a: f64, b: f64, tol: f64) -> Result<f64, RootError> {
     let (mut a, mut b) = (a, b);
     let (mut fa, mut fb) = (f(a), f(b));

@@ -207,7 +207,8 @@ impl Station {
             } else {
                 "correct the TOML syntax at this place (see README.md for an example station file)"
             };
-            ctx.err(span, "TOML", msg.trim_end(), fix)
+            let key = ctx.key_at(span.start).unwrap_or_else(|| "TOML".to_string());
+            ctx.err(span, &key, msg.trim_end(), fix)
         })?;
         ctx.build(raw)
     }
@@ -245,7 +246,7 @@ struct ShapeKeys<'a> {
     width: Option<&'a Num>,
     side_slope: Option<&'a Num>,
     diameter: Option<&'a Num>,
-    points: Option<&'a Spanned<Vec<[f64; 2]>>>,
+    points: Option<&'a Spanned<Vec<Vec<f64>>>>,
 }
 
 impl Ctx<'_> {
@@ -443,9 +444,9 @@ impl Ctx<'_> {
         Ok(section)
     }
 
-    fn points(&self, pts: &Spanned<Vec<[f64; 2]>>, key: &str, unit: LengthUnit) -> Result<Section, StationError> {
-        let list = pts.get_ref();
+    fn points(&self, pts: &Spanned<Vec<Vec<f64>>>, key: &str, unit: LengthUnit) -> Result<Section, StationError> {
         let span = pts.span();
+        let list = self.pairs(pts, key, "give each point as [offset, height]")?;
         if list.len() < 3 {
             return Err(self.err(
                 span,
@@ -494,6 +495,44 @@ impl Ctx<'_> {
         PointsSection::new(&scaled)
             .map(Section::Points)
             .map_err(|e| self.err(span, key, e.to_string(), "check the surveyed points"))
+    }
+
+    /// Checks that every row of a list is a pair of numbers.
+    fn pairs(&self, rows: &Spanned<Vec<Vec<f64>>>, key: &str, fix: &str) -> Result<Vec<[f64; 2]>, StationError> {
+        rows.get_ref()
+            .iter()
+            .enumerate()
+            .map(|(i, r)| match r.as_slice() {
+                [a, b] => Ok([*a, *b]),
+                _ => Err(self.err(
+                    rows.span(),
+                    key,
+                    format!("entry {} has {} numbers, not 2", i + 1, r.len()),
+                    fix.to_string(),
+                )),
+            })
+            .collect()
+    }
+
+    /// The dotted key written at byte `offset`: the `name =` on that line, prefixed with the
+    /// nearest `[table]` header above it.
+    fn key_at(&self, offset: usize) -> Option<String> {
+        let upto = &self.text[..offset.min(self.text.len())];
+        let line_start = upto.rfind('\n').map_or(0, |i| i + 1);
+        let line = self.text[line_start..].lines().next().unwrap_or("");
+        let (name, _) = line.split_once('=')?;
+        let name = name.trim();
+        if name.is_empty() || name.starts_with('#') || name.starts_with('[') {
+            return None;
+        }
+        let table = upto[..line_start].lines().rev().find_map(|l| {
+            let t = l.trim();
+            t.strip_prefix('[').and_then(|t| t.split(']').next()).map(str::trim)
+        });
+        Some(match table {
+            Some(t) => format!("{t}.{name}"),
+            None => name.to_string(),
+        })
     }
 
     fn build(&self, raw: RawStation) -> Result<Station, StationError> {
@@ -858,7 +897,11 @@ impl Ctx<'_> {
                     ));
                 }
             }
-            let rows = table.get_ref();
+            let rows = self.pairs(
+                table,
+                "tailwater.table",
+                "give each row as [discharge m³/s, level above the crest]",
+            )?;
             if rows.len() < 2 {
                 return Err(self.err(
                     table.span(),
@@ -868,7 +911,8 @@ impl Ctx<'_> {
                 ));
             }
             for (i, w) in rows.windows(2).enumerate() {
-                if !(w[1][0] > w[0][0]) || w[1][1] < w[0][1] || !w[1][0].is_finite() || !w[1][1].is_finite() {
+                let finite = w[1][0].is_finite() && w[1][1].is_finite();
+                if !finite || w[1][0] <= w[0][0] || w[1][1] < w[0][1] {
                     return Err(self.err(
                         table.span(),
                         "tailwater.table",

@@ -44,7 +44,7 @@ pub struct RawControl {
     pub width: Option<Num>,
     pub side_slope: Option<Num>,
     pub diameter: Option<Num>,
-    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub points: Option<Spanned<Vec<Vec<f64>>>>,
     pub length: Option<Num>,
     pub coefficient: Option<Spanned<RawCoefficient>>,
     pub displacement_ratio: Option<Num>,
@@ -60,7 +60,7 @@ pub struct RawApproach {
     pub width: Option<Num>,
     pub side_slope: Option<Num>,
     pub diameter: Option<Num>,
-    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub points: Option<Spanned<Vec<Vec<f64>>>>,
     pub sill_height: Option<Num>,
     pub alpha: Option<Num>,
 }
@@ -82,10 +82,10 @@ pub struct RawTailwater {
     pub width: Option<Num>,
     pub side_slope: Option<Num>,
     pub diameter: Option<Num>,
-    pub points: Option<Spanned<Vec<[f64; 2]>>>,
+    pub points: Option<Spanned<Vec<Vec<f64>>>>,
     pub manning_n: Option<Num>,
     pub bed_slope: Option<Num>,
-    pub table: Option<Spanned<Vec<[f64; 2]>>>,
+    pub table: Option<Spanned<Vec<Vec<f64>>>>,
 }
 
 /// `[range]`
