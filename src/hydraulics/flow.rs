@@ -6,7 +6,7 @@
 //! *Open Channel Flow*, ch. 2); Manning's formula Q = A·R^{2/3}·S^{1/2}/n in SI units
 //! (Chow 1959 §5-6). Every solver brackets its root, so it converges for valid input.
 
-use super::roots::{brent, quadratic_roots};
+use super::roots::{brent, newton_bracketed, quadratic_roots};
 use super::section::Section;
 
 /// Standard gravity (m/s²), CGPM 1901; the default everywhere in flumerate.
@@ -127,9 +127,23 @@ pub fn critical_at_energy(section: &Section, energy_m: f64, alpha: f64, g: f64) 
         Section::Circle { diameter_m } => {
             // s(y) = 2T(E − y) − αA is positive near the invert and negative at min(E, D);
             // E_c rises monotonically with depth in a circle, so the root is unique.
-            let top = energy_m.min(*diameter_m);
-            let s = |y: f64| 2.0 * section.top_width_m(y) * (e - y) - alpha * section.area_m2(y);
-            let y = brent(s, top * 1e-12, top, 0.0).unwrap_or(top);
+            // Newton on s in the bracket; dT/dy = 2·cot(θ/2) for a circle (differentiating
+            // T = D·sin(θ/2) and y = (D/2)(1 − cos(θ/2))), so s' = 2T'(E − y) − (2 + α)T.
+            let d = *diameter_m;
+            let top = energy_m.min(d);
+            let s = |y: f64| {
+                if y >= d {
+                    return (-alpha * section.area_m2(d), -1.0);
+                }
+                let theta = 2.0 * (1.0 - 2.0 * y / d).clamp(-1.0, 1.0).acos();
+                let (half_sin, half_cos) = (0.5 * theta).sin_cos();
+                let t = d * half_sin;
+                let a = d * d * (theta - theta.sin()) / 8.0;
+                let dt = 2.0 * half_cos / half_sin;
+                (2.0 * t * (e - y) - alpha * a, 2.0 * dt * (e - y) - (2.0 + alpha) * t)
+            };
+            // a parabola-like bottom has y_c ≈ 0.75·E: a good first guess at low fill
+            let y = newton_bracketed(s, top * 1e-12, top, 0.75 * top).unwrap_or(top);
             (y, 1)
         }
         Section::Points(p) => points_critical_at_energy(p, section, e, alpha, g),

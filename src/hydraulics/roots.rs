@@ -117,6 +117,74 @@ pub fn brent<F: FnMut(f64) -> f64>(mut f: F, a: f64, b: f64, tol: f64) -> Result
     Ok(b)
 }
 
+/// Newton's method kept inside a bracket (Press et al., *Numerical Recipes*, 3rd ed., §9.4
+/// `rtsafe`): `f` returns the value and the derivative; a step that would leave `[lo, hi]`, or
+/// that does not halve the bracket fast enough, is replaced by bisection. `f(lo)` and `f(hi)`
+/// must differ in sign.
+pub fn newton_bracketed<F: FnMut(f64) -> (f64, f64)>(mut f: F, lo: f64, hi: f64, x0: f64) -> Result<f64, RootError> {
+    let (flo, _) = f(lo);
+    let (fhi, _) = f(hi);
+    if flo.is_nan() || fhi.is_nan() {
+        return Err(RootError::NotFinite { a: lo, b: hi });
+    }
+    if flo == 0.0 {
+        return Ok(lo);
+    }
+    if fhi == 0.0 {
+        return Ok(hi);
+    }
+    if flo.signum() == fhi.signum() {
+        return Err(RootError::NoSignChange {
+            a: lo,
+            b: hi,
+            fa: flo,
+            fb: fhi,
+        });
+    }
+    // orient so that f(neg) < 0 < f(pos)
+    let (mut neg, mut pos) = if flo < 0.0 { (lo, hi) } else { (hi, lo) };
+    let mut x = if x0 > lo.min(hi) && x0 < lo.max(hi) {
+        x0
+    } else {
+        0.5 * (lo + hi)
+    };
+    let mut dx_old = (hi - lo).abs();
+    let mut dx = dx_old;
+    for _ in 0..200 {
+        let (fx, dfx) = f(x);
+        if fx.is_nan() {
+            return Err(RootError::NotFinite { a: lo, b: hi });
+        }
+        if fx == 0.0 {
+            return Ok(x);
+        }
+        if fx < 0.0 {
+            neg = x;
+        } else {
+            pos = x;
+        }
+        let newton = x - fx / dfx;
+        // a Newton step below the rounding level of x: converged
+        if (newton - x).abs() <= 4.0 * f64::EPSILON * x.abs() {
+            return Ok(newton);
+        }
+        let inside = (newton - neg) * (newton - pos) < 0.0;
+        if !inside || !newton.is_finite() || (2.0 * fx).abs() > (dx_old * dfx).abs() {
+            dx_old = dx;
+            dx = 0.5 * (pos - neg);
+            x = neg + dx;
+        } else {
+            dx_old = dx;
+            dx = newton - x;
+            x = newton;
+        }
+        if dx.abs() <= 4.0 * f64::EPSILON * x.abs() || (pos - neg).abs() <= 4.0 * f64::EPSILON * x.abs() {
+            return Ok(x);
+        }
+    }
+    Ok(x)
+}
+
 /// Real roots of `a·x² + b·x + c = 0`, in ascending order, computed in the cancellation-free form
 /// (Press et al., *Numerical Recipes*, 3rd ed., §5.6). Degenerates to the linear root when `a = 0`.
 pub fn quadratic_roots(a: f64, b: f64, c: f64) -> Vec<f64> {
@@ -146,6 +214,13 @@ mod tests {
     fn brent_finds_cube_root_of_two() {
         // analytic: 2^(1/3)
         let x = brent(|x| x * x * x - 2.0, 0.0, 2.0, 0.0).expect("bracketed");
+        assert_relative_eq!(x, 2f64.cbrt(), max_relative = 1e-15);
+    }
+
+    #[test]
+    fn newton_bracketed_finds_cube_root_of_two_from_a_poor_guess() {
+        // analytic: 2^(1/3)
+        let x = newton_bracketed(|x| (x * x * x - 2.0, 3.0 * x * x), 0.0, 10.0, 9.9).expect("bracketed");
         assert_relative_eq!(x, 2f64.cbrt(), max_relative = 1e-15);
     }
 

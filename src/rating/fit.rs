@@ -59,11 +59,18 @@ pub fn fit_power_law(points: &[(f64, f64)]) -> Option<PowerLaw> {
     }
     let h_min = pts.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
     let h_max = pts.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
-    let ln_q: Vec<f64> = pts.iter().map(|p| p.1.ln()).collect();
-    let sse = |h0: f64| {
-        let x: Vec<f64> = pts.iter().map(|p| (p.0 + h0).ln()).collect();
-        line_fit(&x, &ln_q)
+    // The search for h0 runs on at most SEARCH_POINTS rows spread evenly through the table (a
+    // rating is smooth, so they fix h0 as well as all rows would, at a fraction of the cost of
+    // long tables); K and u are then fitted on every row at that h0.
+    const SEARCH_POINTS: usize = 400;
+    let stride = pts.len().div_ceil(SEARCH_POINTS);
+    let search: Vec<(f64, f64)> = pts.iter().copied().step_by(stride).collect();
+    let fit_on = |set: &[(f64, f64)], h0: f64| {
+        let x: Vec<f64> = set.iter().map(|p| (p.0 + h0).ln()).collect();
+        let y: Vec<f64> = set.iter().map(|p| p.1.ln()).collect();
+        line_fit(&x, &y)
     };
+    let sse = |h0: f64| fit_on(&search, h0);
     // h0 may not make any head non-positive; search (−0.95·h_min, h_max − h_min]
     let (lo, hi) = (-0.95 * h_min, (h_max - h_min).max(h_min));
     let n = 60;
@@ -84,12 +91,12 @@ pub fn fit_power_law(points: &[(f64, f64)]) -> Option<PowerLaw> {
         } else {
             a = c;
         }
-        if (b - a).abs() < 1e-12 * h_max {
+        if (b - a).abs() < 1e-10 * h_max {
             break;
         }
     }
     let h0 = 0.5 * (a + b);
-    let (ln_k, u, _) = sse(h0);
+    let (ln_k, u, _) = fit_on(&pts, h0);
     let mut law = PowerLaw {
         k: ln_k.exp(),
         h0_m: h0,

@@ -54,9 +54,11 @@ proptest! {
         for i in 1..=40 {
             let h = 0.01 * i as f64;
             let q = m.discharge_m3s(h).expect("rated");
-            prop_assert!(q > last, "Q({h}) = {q} not above {last}");
+            // zero only while the boundary layer fills the bottom of a narrow V (h below its rise)
+            prop_assert!(q > last || (q == 0.0 && last == 0.0), "Q({h}) = {q} not above {last}");
             last = q;
         }
+        prop_assert!(last > 0.0);
     }
 
     #[test]
@@ -76,6 +78,9 @@ proptest! {
     fn critical_depth_energy_round_trip(s in section(), q in 0.001f64..5.0) {
         let yc = critical_depths_m(&s, q, 1.0, G).expect("solved");
         prop_assert_eq!(yc.len(), 1);
+        // a pipe more than 95 % full is no longer a free-surface control worth rating, and there
+        // T → 0 makes Q(y) so steep that round-off dominates
+        prop_assume!(s.full_depth_m().is_none_or(|d| yc[0] < 0.95 * d));
         let ec = specific_energy_m(&s, yc[0], q, 1.0, G);
         let back = critical_at_energy(&s, ec, 1.0, G);
         prop_assert!((back.depth_m - yc[0]).abs() <= 1e-9 * yc[0], "{} vs {}", back.depth_m, yc[0]);

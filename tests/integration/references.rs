@@ -24,35 +24,38 @@ fn num(v: &Value, key: &str) -> f64 {
     v[key].as_f64().unwrap_or_else(|| panic!("key {key} missing in {v}"))
 }
 
-/// (shape args in SI, Q m³/s, E for alternate depths m, [(key, expected SI value, tolerance)])
-fn section_cases() -> Vec<(
-    Vec<(&'static str, f64)>,
-    &'static str,
-    f64,
-    f64,
-    Vec<(&'static str, f64, f64)>,
-)> {
+/// One `section` check: shape dimensions (SI), shape, Q (m³/s), E for the alternate depths (m),
+/// and (key, expected SI value, relative tolerance) triples.
+struct SectionCase {
+    dims: Vec<(&'static str, f64)>,
+    shape: &'static str,
+    q: f64,
+    e: f64,
+    checks: Vec<(&'static str, f64, f64)>,
+}
+
+fn section_cases() -> Vec<SectionCase> {
     vec![
         // references.md §0 (COMPUTED): rectangle q = 0.3 m²/s (b = 1 m)
-        (
-            vec![("--width", 1.0)],
-            "rectangle",
-            0.3,
-            1.0,
-            vec![
+        SectionCase {
+            dims: vec![("--width", 1.0)],
+            shape: "rectangle",
+            q: 0.3,
+            e: 1.0,
+            checks: vec![
                 ("critical_depth", 0.2093665410, 1e-6),
                 ("critical_energy", 0.3140498115, 1e-6),
                 ("sub", 0.9953684743, 1e-6),
                 ("super", 0.0702527733, 1e-6),
             ],
-        ),
+        },
         // references.md §0 (COMPUTED): trapezoid b = 2 m, z = 1.5, Q = 5 m³/s, E = 1.5 m
-        (
-            vec![("--width", 2.0), ("--side-slope", 1.5)],
-            "trapezoid",
-            5.0,
-            1.5,
-            vec![
+        SectionCase {
+            dims: vec![("--width", 2.0), ("--side-slope", 1.5)],
+            shape: "trapezoid",
+            q: 5.0,
+            e: 1.5,
+            checks: vec![
                 ("critical_depth", 0.7143239931, 1e-6),
                 ("critical_energy", 0.9791141181, 1e-6),
                 ("critical_top_width", 4.1429720, 1e-6),
@@ -60,25 +63,32 @@ fn section_cases() -> Vec<(
                 ("sub", 1.4663892, 1e-6),
                 ("super", 0.4133741, 1e-6),
             ],
-        ),
+        },
         // references.md §0 (COMPUTED): circle D = 1 m, Q = 0.5 m³/s
-        (
-            vec![("--diameter", 1.0)],
-            "circle",
-            0.5,
-            1.0,
-            vec![
+        SectionCase {
+            dims: vec![("--diameter", 1.0)],
+            shape: "circle",
+            q: 0.5,
+            e: 1.0,
+            checks: vec![
                 ("critical_depth", 0.3988767311, 1e-6),
                 ("critical_energy", 0.5480951, 1e-6),
                 ("critical_top_width", 0.9793346, 1e-6),
             ],
-        ),
+        },
     ]
 }
 
 #[test]
 fn section_reproduces_reference_sections_in_si_and_us_units() {
-    for (dims, shape, q, e, checks) in section_cases() {
+    for SectionCase {
+        dims,
+        shape,
+        q,
+        e,
+        checks,
+    } in section_cases()
+    {
         for us in [false, true] {
             let (lf, qf, suffix) = if us {
                 (1.0 / FT, 1.0 / CFS, "ft")
