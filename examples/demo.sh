@@ -6,7 +6,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 
 cargo build --locked --quiet
-bin=target/debug/flumerate
+bin="${CARGO_TARGET_DIR:-target}/debug/flumerate"
 mkdir -p out
 
 echo "== 1. check the canal flume's station file and the limits of its method"
