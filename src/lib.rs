@@ -3,4 +3,5 @@ pub mod hydraulics;
 pub mod rating;
 pub mod report;
 pub mod station;
+pub mod uncertainty;
 pub mod units;

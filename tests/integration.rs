@@ -7,4 +7,5 @@ mod integration {
     pub mod malformed;
     pub mod properties;
     pub mod references;
+    pub mod uncertainty;
 }

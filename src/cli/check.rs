@@ -50,6 +50,7 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
         model: &model,
         table: &table,
         units,
+        uncertainty: None,
     };
     for line in summary.structure_lines() {
         let _ = writeln!(s, "{line}");

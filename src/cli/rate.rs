@@ -6,9 +6,24 @@ use std::process::ExitCode;
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use flumerate::rating::{head_sequence, sensible_step, RatingModel, RatingTable};
-use flumerate::report::rating::RatingReport;
+use flumerate::report::rating::{RatingReport, UncertaintyColumns};
 use flumerate::station::Station;
+use flumerate::uncertainty::{departure_from_gum, monte_carlo, GumModel, Inputs, McOptions};
 use flumerate::units::Units;
+
+/// Uncertainty methods.
+#[derive(Debug, Clone, Copy, ValueEnum, Default, PartialEq, Eq)]
+pub enum UncertaintyMethod {
+    /// first-order propagation (JCGM 100) only: the u95_pct column
+    #[default]
+    Gum,
+    /// also Monte Carlo (JCGM 101): adds the mc_low and mc_high columns
+    Mc,
+}
+
+/// A Monte Carlo interval departing from the GUM one by more than this fraction of its width is
+/// reported (issue 3; JCGM 101 §8 compares the two intervals' end points).
+const MC_DEPARTURE_WARNING: f64 = 0.05;
 
 use super::{output::emit, OutputArgs, UnitsArg};
 
@@ -46,6 +61,21 @@ pub struct RateArgs {
     /// Exit with code 1 when any row lies outside the limits of application
     #[arg(long)]
     pub strict: bool,
+    /// Uncertainty method: GUM always gives u95_pct; mc adds a Monte Carlo 95 % interval
+    #[arg(long, value_enum, default_value_t)]
+    pub uncertainty: UncertaintyMethod,
+    /// Monte Carlo draws
+    #[arg(long, default_value_t = 100_000)]
+    pub draws: usize,
+    /// Monte Carlo seed (the same seed gives the same result on any number of threads)
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Worker threads for Monte Carlo [default: all cores]
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Also give each input's share of the variance at every head
+    #[arg(long)]
+    pub budget: bool,
     #[command(flatten)]
     pub out: OutputArgs,
 }
@@ -68,13 +98,52 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         .into_iter()
         .map(|h| units.length_to_si(h))
         .collect();
-    let table = RatingTable::compute(&model, &heads);
+    let mut table = RatingTable::compute(&model, &heads);
+
+    let inputs = Inputs::from_station(&station.uncertainty, &station.structure);
+    let gum = GumModel::new(&model, inputs.clone()).context("preparing the uncertainty analysis")?;
+    let points: Vec<_> = table
+        .rows
+        .iter()
+        .map(|r| r.point.and_then(|_| gum.point(r.head_m).ok()))
+        .collect();
+    let monte = if a.uncertainty == UncertaintyMethod::Mc {
+        let opts = McOptions {
+            draws: a.draws,
+            seed: a.seed,
+            threads: a.threads.unwrap_or(McOptions::default().threads),
+        };
+        let rows = monte_carlo(&model, &inputs, &heads, &opts)?;
+        for ((row, mc), gp) in table.rows.iter_mut().zip(&rows).zip(&points) {
+            if let (Some(mc), Some(gp)) = (mc, gp) {
+                let d = departure_from_gum(mc, gp.discharge_m3s, gp.u_rel * gp.discharge_m3s);
+                if d > MC_DEPARTURE_WARNING {
+                    row.notes.push(format!(
+                        "Monte Carlo interval departs from GUM by {:.0} % of its width",
+                        d * 100.0
+                    ));
+                }
+            }
+        }
+        Some((rows, opts.draws, opts.seed))
+    } else {
+        None
+    };
+    let columns = UncertaintyColumns {
+        inputs,
+        u95_pct: points.iter().map(|p| p.map_or(f64::NAN, |p| p.u95_pct())).collect(),
+        shares: a
+            .budget
+            .then(|| points.iter().map(|p| p.map_or([f64::NAN; 4], |p| p.shares)).collect()),
+        monte_carlo: monte,
+    };
     let report = RatingReport {
         name: &station.name,
         source: &station.source,
         model: &model,
         table: &table,
         units,
+        uncertainty: Some(&columns),
     };
     let bytes = match a.format {
         TableFormat::Text => report.to_text(),

@@ -483,6 +483,34 @@ impl Section {
         Ok((section, rise))
     }
 
+    /// The section with its width scaled by `factor`: the width of a rectangle, the bed width of
+    /// a trapezoid, the side slope of a triangle (its width at any depth), the diameter of a
+    /// circle, the offsets of a surveyed section. Used to propagate a width uncertainty.
+    pub fn scaled_width(&self, factor: f64) -> Section {
+        match self {
+            Section::Rectangle { width_m } => Section::Rectangle {
+                width_m: width_m * factor,
+            },
+            Section::Trapezoid {
+                bottom_width_m,
+                side_slope,
+            } => Section::Trapezoid {
+                bottom_width_m: bottom_width_m * factor,
+                side_slope: *side_slope,
+            },
+            Section::Triangle { side_slope } => Section::Triangle {
+                side_slope: side_slope * factor,
+            },
+            Section::Circle { diameter_m } => Section::Circle {
+                diameter_m: diameter_m * factor,
+            },
+            Section::Points(p) => {
+                let pts: Vec<(f64, f64)> = p.points().iter().map(|&(x, z)| (x * factor, z)).collect();
+                Section::Points(PointsSection::new(&pts).expect("scaling offsets keeps a valid section valid"))
+            }
+        }
+    }
+
     /// A short human description, with dimensions in the given length unit.
     pub fn describe(&self, unit: &str, per_m: f64) -> String {
         let l = |v: f64| format!("{:.4} {unit}", v * per_m);

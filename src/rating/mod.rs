@@ -7,5 +7,5 @@ pub mod model;
 pub mod table;
 
 pub use fit::{fit_power_law, PowerLaw};
-pub use model::{LossMethod, RatingError, RatingModel, RatingPoint, Structure, StructureKind};
+pub use model::{LossMethod, Perturbation, RatingError, RatingModel, RatingPoint, Structure, StructureKind};
 pub use table::{head_sequence, sensible_step, HeadRangeError, RatingRow, RatingTable};

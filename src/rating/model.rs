@@ -123,6 +123,17 @@ pub struct RatingPoint {
 pub struct RatingModel {
     structure: Structure,
     control: Control,
+    /// Multiplies the control's discharge (1 except when an uncertainty analysis perturbs Cd).
+    cd_factor: f64,
+}
+
+/// A systematic change applied to a model, as an uncertainty analysis does.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Perturbation {
+    /// Factor on the discharge coefficient (1 = unchanged).
+    pub cd_factor: f64,
+    /// Factor on the control width or diameter (1 = unchanged); see [`Section::scaled_width`].
+    pub width_factor: f64,
 }
 
 /// The control as the model evaluates it.
@@ -156,7 +167,23 @@ impl RatingModel {
             }
             LossMethod::FixedCd(cd) => Control::Fixed { cd },
         };
-        Ok(Self { structure, control })
+        Ok(Self {
+            structure,
+            control,
+            cd_factor: 1.0,
+        })
+    }
+
+    /// The same structure with its discharge coefficient scaled by `p.cd_factor` and its control
+    /// width (or diameter) by `p.width_factor`; the boundary layer is recomputed for the new width.
+    pub fn perturbed(&self, p: &Perturbation) -> Result<Self, RatingError> {
+        let mut structure = self.structure.clone();
+        if (p.width_factor - 1.0).abs() > 0.0 {
+            structure.control = structure.control.scaled_width(p.width_factor);
+        }
+        let mut m = Self::new(structure)?;
+        m.cd_factor = self.cd_factor * p.cd_factor;
+        Ok(m)
     }
 
     /// The structure this model rates.
@@ -172,8 +199,8 @@ impl RatingModel {
     fn control_flow(&self, energy_head_m: f64) -> ControlFlow {
         let g = self.structure.gravity_m_s2;
         let (section, rise_m, cd) = match &self.control {
-            Control::Effective { section, rise_m } => (section, *rise_m, 1.0),
-            Control::Fixed { cd } => (&self.structure.control, 0.0, *cd),
+            Control::Effective { section, rise_m } => (section, *rise_m, self.cd_factor),
+            Control::Fixed { cd } => (&self.structure.control, 0.0, *cd * self.cd_factor),
         };
         let c = critical_at_energy(section, energy_head_m - rise_m, 1.0, g);
         ControlFlow {

@@ -7,7 +7,21 @@ use serde_json::{json, Map, Value};
 
 use super::{sig, wrap, CAUTIONS};
 use crate::rating::{LossMethod, RatingModel, RatingRow, RatingTable, StructureKind};
+use crate::uncertainty::{Inputs, McRow, INPUT_NAMES};
 use crate::units::Units;
+
+/// Uncertainty columns of a rating table, row for row.
+#[derive(Debug, Clone)]
+pub struct UncertaintyColumns {
+    /// The inputs used.
+    pub inputs: Inputs,
+    /// Expanded (k = 2) GUM uncertainty of one reading, % of Q (NaN where there is no Q).
+    pub u95_pct: Vec<f64>,
+    /// Each input's share of the variance, when a budget was asked for.
+    pub shares: Option<Vec<[f64; 4]>>,
+    /// Monte Carlo results, when asked for, with the number of draws and the seed.
+    pub monte_carlo: Option<(Vec<Option<McRow>>, usize, u64)>,
+}
 
 /// Everything a rating report shows.
 #[derive(Debug, Clone, Copy)]
@@ -22,6 +36,8 @@ pub struct RatingReport<'a> {
     pub table: &'a RatingTable,
     /// Output units.
     pub units: Units,
+    /// Uncertainty columns, if computed.
+    pub uncertainty: Option<&'a UncertaintyColumns>,
 }
 
 /// One output cell.
@@ -39,7 +55,7 @@ impl RatingReport<'_> {
             self.units.discharge_suffix(),
             self.units.velocity_suffix(),
         );
-        vec![
+        let mut h = vec![
             format!("head_{l}"),
             format!("discharge_{q}"),
             format!("energy_head_{l}"),
@@ -48,16 +64,27 @@ impl RatingReport<'_> {
             "cv".into(),
             "froude_approach".into(),
             format!("approach_velocity_{v}"),
-            "valid".into(),
-            "note".into(),
-        ]
+        ];
+        if let Some(u) = self.uncertainty {
+            h.push("u95_pct".into());
+            if u.monte_carlo.is_some() {
+                h.push(format!("mc_low_{q}"));
+                h.push(format!("mc_high_{q}"));
+            }
+            if u.shares.is_some() {
+                h.extend(INPUT_NAMES.iter().map(|n| format!("share_{n}")));
+            }
+        }
+        h.push("valid".into());
+        h.push("note".into());
+        h
     }
 
-    fn cells(&self, row: &RatingRow) -> Vec<Cell> {
+    fn cells(&self, index: usize, row: &RatingRow) -> Vec<Cell> {
         let u = self.units;
         let p = row.point;
         let num = |f: &dyn Fn(&crate::rating::RatingPoint) -> f64| Cell::Num(p.as_ref().map_or(f64::NAN, f));
-        vec![
+        let mut cells = vec![
             Cell::Num(u.length_from_si(row.head_m)),
             num(&|p| u.discharge_from_si(p.discharge_m3s)),
             num(&|p| u.length_from_si(p.energy_head_m)),
@@ -66,9 +93,21 @@ impl RatingReport<'_> {
             num(&|p| p.cv),
             num(&|p| p.froude_approach),
             num(&|p| u.length_from_si(p.approach_velocity_m_s)),
-            Cell::Bool(row.valid),
-            Cell::Text(row.notes.join("; ")),
-        ]
+        ];
+        if let Some(unc) = self.uncertainty {
+            cells.push(Cell::Num(unc.u95_pct[index]));
+            if let Some((mc, _, _)) = &unc.monte_carlo {
+                let m = mc[index];
+                cells.push(Cell::Num(m.map_or(f64::NAN, |m| u.discharge_from_si(m.low_m3s))));
+                cells.push(Cell::Num(m.map_or(f64::NAN, |m| u.discharge_from_si(m.high_m3s))));
+            }
+            if let Some(shares) = &unc.shares {
+                cells.extend(shares[index].iter().map(|s| Cell::Num(*s)));
+            }
+        }
+        cells.push(Cell::Bool(row.valid));
+        cells.push(Cell::Text(row.notes.join("; ")));
+        cells
     }
 
     /// One-line description of the loss method.
@@ -116,9 +155,9 @@ impl RatingReport<'_> {
     pub fn to_csv(&self) -> Result<Vec<u8>, csv::Error> {
         let mut w = csv::Writer::from_writer(Vec::new());
         w.write_record(self.headers())?;
-        for row in &self.table.rows {
+        for (i, row) in self.table.rows.iter().enumerate() {
             let rec: Vec<String> = self
-                .cells(row)
+                .cells(i, row)
                 .into_iter()
                 .map(|c| match c {
                     Cell::Num(v) if v.is_finite() => format!("{v}"),
@@ -158,6 +197,50 @@ impl RatingReport<'_> {
         (k, self.units.length_from_si(eq.h0_m))
     }
 
+    /// The uncertainty inputs and methods as JSON, or null.
+    fn uncertainty_json(&self) -> Value {
+        let Some(u) = self.uncertainty else {
+            return Value::Null;
+        };
+        let inputs: Vec<Value> = INPUT_NAMES
+            .iter()
+            .zip(u.inputs.all())
+            .map(|(name, i)| json!({ "input": name, "stated": i.stated, "standard": i.standard, "source": i.source }))
+            .collect();
+        json!({
+            "u95_pct": "GUM first order (JCGM 100), sensitivities by central differences of the whole rating, k = 2, one reading",
+            "inputs": inputs,
+            "monte_carlo": u.monte_carlo.as_ref().map(|(_, draws, seed)| json!({
+                "method": "JCGM 101, probabilistically symmetric 95 % interval",
+                "draws": draws,
+                "seed": seed,
+            })),
+        })
+    }
+
+    /// Text lines describing the uncertainty inputs.
+    fn uncertainty_lines(&self) -> Vec<String> {
+        let Some(u) = self.uncertainty else {
+            return Vec::new();
+        };
+        let mut lines = vec!["uncertainty of one reading (u95 %, GUM, k = 2) from these inputs:".to_string()];
+        let kinds = [
+            "systematic, on Cd",
+            "systematic, on the control width",
+            "systematic, gauge zero",
+            "random, one head reading",
+        ];
+        for ((name, i), kind) in INPUT_NAMES.iter().zip(u.inputs.all()).zip(kinds) {
+            lines.push(format!("  {name:<12} {:<34} {kind}; {}", i.stated, i.source));
+        }
+        if let Some((_, draws, seed)) = &u.monte_carlo {
+            lines.push(format!(
+                "Monte Carlo (JCGM 101): {draws} draws, seed {seed}; MC low/high is the probabilistically symmetric 95 % interval"
+            ));
+        }
+        lines
+    }
+
     /// JSON: station, units, method, rows (one object per row), equation and cautions.
     pub fn to_json(&self) -> Result<Vec<u8>, serde_json::Error> {
         let headers = self.headers();
@@ -165,9 +248,10 @@ impl RatingReport<'_> {
             .table
             .rows
             .iter()
-            .map(|row| {
+            .enumerate()
+            .map(|(i, row)| {
                 let mut m = Map::new();
-                for (h, c) in headers.iter().zip(self.cells(row)) {
+                for (h, c) in headers.iter().zip(self.cells(i, row)) {
                     let v = match c {
                         Cell::Num(v) if v.is_finite() => json!(v),
                         Cell::Num(_) => Value::Null,
@@ -186,6 +270,7 @@ impl RatingReport<'_> {
             "method": self.method_line(),
             "rows": rows,
             "equation": self.equation_json(),
+            "uncertainty": self.uncertainty_json(),
             "cautions": CAUTIONS,
         });
         let mut out = serde_json::to_vec_pretty(&doc)?;
@@ -205,10 +290,16 @@ impl RatingReport<'_> {
             s.push('\n');
         }
         s.push_str(&format!(
-            "units: head h1 and energy head H1 in {lu} above the crest, discharge Q in {qu}\n\n"
+            "units: head h1 and energy head H1 in {lu} above the crest, discharge Q in {qu}\n"
         ));
+        for line in self.uncertainty_lines() {
+            s.push_str(&line);
+            s.push('\n');
+        }
+        s.push('\n');
+        let mc = self.uncertainty.and_then(|u| u.monte_carlo.as_ref());
         s.push_str(&format!(
-            "{:>8} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}  {}\n",
+            "{:>8} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}",
             format!("h1 {lu}"),
             format!("Q {qu}"),
             format!("H1 {lu}"),
@@ -216,16 +307,24 @@ impl RatingReport<'_> {
             "Cd",
             "Cv",
             "Fr1",
-            "valid",
-            "note"
+            "u95 %",
         ));
-        for row in &self.table.rows {
+        if mc.is_some() {
+            s.push_str(&format!(" {:>12} {:>12}", "MC low", "MC high"));
+        }
+        s.push_str(&format!(" {:>6}  note\n", "valid"));
+        for (i, row) in self.table.rows.iter().enumerate() {
             let p = row.point;
             let f = |g: &dyn Fn(&crate::rating::RatingPoint) -> f64, digits: usize| {
                 p.as_ref().map_or("-".to_string(), |p| format!("{:.digits$}", g(p)))
             };
+            let u95 = self
+                .uncertainty
+                .map(|x| x.u95_pct[i])
+                .filter(|v| v.is_finite())
+                .map_or("-".to_string(), |v| format!("{v:.2}"));
             s.push_str(&format!(
-                "{:>8.4} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}  {}\n",
+                "{:>8.4} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}",
                 u.length_from_si(row.head_m),
                 p.as_ref()
                     .map_or("-".to_string(), |p| sig(u.discharge_from_si(p.discharge_m3s), 4)),
@@ -234,9 +333,46 @@ impl RatingReport<'_> {
                 f(&|p| p.cd, 4),
                 f(&|p| p.cv, 4),
                 f(&|p| p.froude_approach, 3),
+                u95,
+            ));
+            if let Some((rows, _, _)) = mc {
+                let (lo, hi) = rows[i].map_or(("-".to_string(), "-".to_string()), |m| {
+                    (
+                        sig(u.discharge_from_si(m.low_m3s), 4),
+                        sig(u.discharge_from_si(m.high_m3s), 4),
+                    )
+                });
+                s.push_str(&format!(" {lo:>12} {hi:>12}"));
+            }
+            s.push_str(&format!(
+                " {:>6}  {}\n",
                 if row.valid { "yes" } else { "NO" },
                 row.notes.join("; ")
             ));
+        }
+        if let Some(shares) = self.uncertainty.and_then(|x| x.shares.as_ref()) {
+            s.push_str(&format!(
+                "\nuncertainty budget: each input's share of the variance of Q, % (one reading)\n{:>8} {:>12} {:>10} {:>8} {:>8} {:>7}\n",
+                format!("h1 {lu}"),
+                "coefficient",
+                "dimension",
+                "zero",
+                "reading",
+                "u95 %"
+            ));
+            for (i, row) in self.table.rows.iter().enumerate() {
+                let sh = shares[i];
+                let u95 = self.uncertainty.map_or(f64::NAN, |x| x.u95_pct[i]);
+                s.push_str(&format!(
+                    "{:>8.4} {:>12.1} {:>10.1} {:>8.1} {:>8.1} {:>7.2}\n",
+                    u.length_from_si(row.head_m),
+                    sh[0] * 100.0,
+                    sh[1] * 100.0,
+                    sh[2] * 100.0,
+                    sh[3] * 100.0,
+                    u95
+                ));
+            }
         }
         s.push('\n');
         match self.table.equation {

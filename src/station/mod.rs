@@ -119,8 +119,19 @@ pub enum TailwaterSpec {
     Table(Vec<(f64, f64)>),
 }
 
-/// Expanded (k = 2) input uncertainties as given in the file; `None` where not given.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
+/// The probability distribution of an input's error.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum InputDistribution {
+    /// Gaussian; the value given is an expanded uncertainty U = k·u.
+    #[default]
+    Normal,
+    /// Uniform; the value given is the half-width a, so u = a/√3 (JCGM 100 §4.3.7).
+    Rectangular,
+}
+
+/// Input uncertainties as given in the file; `None` where not given (defaults then apply, see
+/// [`crate::uncertainty::Inputs::from_station`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct UncertaintySpec {
     /// Systematic, relative, on the discharge coefficient (%).
     pub coefficient_pct: Option<f64>,
@@ -130,6 +141,23 @@ pub struct UncertaintySpec {
     pub dimension_pct: Option<f64>,
     /// Random, one head reading (mm).
     pub head_mm: Option<f64>,
+    /// Distribution of each input, in the order coefficient, dimension, zero, head.
+    pub distributions: [InputDistribution; 4],
+    /// Coverage factor k of the values given for normal inputs (default 2, about 95 %).
+    pub coverage_factor: f64,
+}
+
+impl Default for UncertaintySpec {
+    fn default() -> Self {
+        Self {
+            coefficient_pct: None,
+            zero_mm: None,
+            dimension_pct: None,
+            head_mm: None,
+            distributions: [InputDistribution::Normal; 4],
+            coverage_factor: 2.0,
+        }
+    }
 }
 
 /// How the station's logger export reads.
@@ -843,11 +871,40 @@ impl Ctx<'_> {
                         })
                         .transpose()
                 };
+                let dist = |t: &Option<Text>, key: &str| -> Result<InputDistribution, StationError> {
+                    match t.as_ref().map(|t| (t.get_ref().as_str(), t.span())) {
+                        None | Some(("normal", _)) => Ok(InputDistribution::Normal),
+                        Some(("rectangular", _)) => Ok(InputDistribution::Rectangular),
+                        Some((other, span)) => Err(self.err(
+                            span,
+                            key,
+                            format!("unknown distribution \"{other}\""),
+                            "use \"normal\" (value is expanded, U = k·u) or \"rectangular\" (value is the half-width)",
+                        )),
+                    }
+                };
                 UncertaintySpec {
                     coefficient_pct: pct(&u.coefficient_pct, "uncertainty.coefficient_pct")?,
                     zero_mm: pct(&u.zero_mm, "uncertainty.zero_mm")?,
                     dimension_pct: pct(&u.dimension_pct, "uncertainty.dimension_pct")?,
                     head_mm: pct(&u.head_mm, "uncertainty.head_mm")?,
+                    distributions: [
+                        dist(&u.coefficient_distribution, "uncertainty.coefficient_distribution")?,
+                        dist(&u.dimension_distribution, "uncertainty.dimension_distribution")?,
+                        dist(&u.zero_distribution, "uncertainty.zero_distribution")?,
+                        dist(&u.head_distribution, "uncertainty.head_distribution")?,
+                    ],
+                    coverage_factor: match &u.coverage_factor {
+                        Some(k) => self.bounded(
+                            k,
+                            "uncertainty.coverage_factor",
+                            1.0,
+                            4.0,
+                            false,
+                            "give the coverage factor k of the expanded values, usually 2 (about 95 %)",
+                        )?,
+                        None => 2.0,
+                    },
                 }
             }
         };

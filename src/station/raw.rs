@@ -104,6 +104,11 @@ pub struct RawUncertainty {
     pub zero_mm: Option<Num>,
     pub dimension_pct: Option<Num>,
     pub head_mm: Option<Num>,
+    pub coefficient_distribution: Option<Text>,
+    pub zero_distribution: Option<Text>,
+    pub dimension_distribution: Option<Text>,
+    pub head_distribution: Option<Text>,
+    pub coverage_factor: Option<Num>,
 }
 
 /// `[logger]`

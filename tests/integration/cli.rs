@@ -248,3 +248,84 @@ fn unknown_commands_and_flags_are_usage_errors() {
     flumerate().arg("rat").assert().code(2);
     flumerate().args(["rate", DEMO, "--format", "xml"]).assert().code(2);
 }
+
+#[test]
+fn rate_carries_u95_on_every_row_and_monte_carlo_when_asked() {
+    let doc = rate_json(std::path::Path::new(DEMO), &["--step", "0.1"]);
+    for row in doc["rows"].as_array().expect("rows") {
+        let u = row["u95_pct"].as_f64().expect("u95_pct on every row");
+        assert!(u > 1.0 && u < 10.0, "{row}");
+        assert!(row.get("mc_low_m3s").is_none());
+    }
+    assert_eq!(doc["uncertainty"]["inputs"].as_array().expect("inputs").len(), 4);
+
+    let doc = rate_json(
+        std::path::Path::new(DEMO),
+        &[
+            "--step",
+            "0.1",
+            "--uncertainty",
+            "mc",
+            "--draws",
+            "4000",
+            "--seed",
+            "3",
+            "--units",
+            "us",
+            "--budget",
+        ],
+    );
+    for row in doc["rows"].as_array().expect("rows") {
+        let (q, lo, hi) = (
+            row["discharge_cfs"].as_f64().expect("q"),
+            row["mc_low_cfs"].as_f64().expect("low"),
+            row["mc_high_cfs"].as_f64().expect("high"),
+        );
+        assert!(lo < q && q < hi, "{row}");
+        let shares: f64 = ["coefficient", "dimension", "zero", "reading"]
+            .iter()
+            .map(|n| row[format!("share_{n}")].as_f64().expect("share"))
+            .sum();
+        assert!((shares - 1.0).abs() < 1e-9);
+    }
+    assert_eq!(doc["uncertainty"]["monte_carlo"]["draws"], 4000);
+}
+
+#[test]
+fn monte_carlo_departing_from_gum_is_reported() {
+    // a ±60 mm reading error at 0.07 m head makes Q(h) strongly non-linear over the spread: the
+    // Monte Carlo interval is then skewed and no longer Q ± 2u (JCGM 101 §8)
+    let dir = tempfile::tempdir().expect("tempdir");
+    let text = std::fs::read_to_string(DEMO)
+        .expect("demo")
+        .replace("head_mm = 2.0", "head_mm = 60.0");
+    let st = station_file(dir.path(), "noisy.toml", &text);
+    let doc = rate_json(
+        &st,
+        &[
+            "--from",
+            "0.07",
+            "--to",
+            "0.07",
+            "--step",
+            "1",
+            "--uncertainty",
+            "mc",
+            "--draws",
+            "20000",
+        ],
+    );
+    let note = doc["rows"][0]["note"].as_str().expect("note");
+    assert!(note.contains("departs from GUM"), "{note}");
+}
+
+#[test]
+fn budget_text_lists_every_input() {
+    flumerate()
+        .args(["rate", DEMO, "--step", "0.1", "--budget"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("uncertainty budget"))
+        .stdout(predicate::str::contains("coefficient"))
+        .stdout(predicate::str::contains("u95 %"));
+}

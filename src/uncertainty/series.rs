@@ -1,0 +1,141 @@
+//! Uncertainty of discharges read from a series of heads, and of the mean or volume over a period.
+//!
+//! The systematic inputs (discharge coefficient, control width, gauge zero) take the same value
+//! for every reading of the period, so their contributions add linearly across readings (fully
+//! correlated, JCGM 100 §5.2.2 with r = 1); the reading error is independent from one reading to
+//! the next, so its contributions add in quadrature. Adding the reading noise linearly, as if it
+//! were systematic, would overstate it by up to √N for N readings (references.md §8.3).
+
+use super::gum::{GumPoint, COVERAGE_FACTOR};
+use super::inputs::Inputs;
+
+/// One reading of a series, with the sensitivities of its discharge.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SeriesReading {
+    /// Discharge (m³/s).
+    pub discharge_m3s: f64,
+    /// ∂Q/∂f_Cd (m³/s).
+    pub dq_dcoefficient: f64,
+    /// ∂Q/∂f_b (m³/s).
+    pub dq_ddimension: f64,
+    /// ∂Q/∂h (m²/s).
+    pub dq_dhead: f64,
+    /// Time the reading stands for (s).
+    pub duration_s: f64,
+    /// False for a gap or a flagged row: it adds neither volume nor uncertainty, and the result
+    /// reports the time it stood for as not covered.
+    pub included: bool,
+}
+
+impl SeriesReading {
+    /// A reading from a GUM point.
+    pub fn from_point(p: &GumPoint, duration_s: f64, included: bool) -> Self {
+        Self {
+            discharge_m3s: p.discharge_m3s,
+            dq_dcoefficient: p.dq_dcoefficient,
+            dq_ddimension: p.dq_ddimension,
+            dq_dhead: p.dq_dhead,
+            duration_s,
+            included,
+        }
+    }
+}
+
+/// The 95 % band of one reading's discharge: Q ± k·u_c with every input, systematic and random.
+pub fn reading_band(inputs: &Inputs, r: &SeriesReading) -> (f64, f64) {
+    let u = ((r.dq_dcoefficient * inputs.coefficient.standard).powi(2)
+        + (r.dq_ddimension * inputs.dimension.standard).powi(2)
+        + (r.dq_dhead * inputs.head_standard_m()).powi(2))
+    .sqrt();
+    (
+        r.discharge_m3s - COVERAGE_FACTOR * u,
+        r.discharge_m3s + COVERAGE_FACTOR * u,
+    )
+}
+
+/// Volume over a period and its standard uncertainty, split by input.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PeriodUncertainty {
+    /// Σ Q·Δt over the included readings (m³).
+    pub volume_m3: f64,
+    /// Time covered by included readings (s).
+    pub covered_s: f64,
+    /// Time of excluded readings (gaps, flagged rows) (s).
+    pub excluded_s: f64,
+    /// Readings included.
+    pub readings: usize,
+    /// Readings excluded.
+    pub excluded: usize,
+    /// From the discharge coefficient, fully correlated (m³).
+    pub u_coefficient_m3: f64,
+    /// From the control width, fully correlated (m³).
+    pub u_dimension_m3: f64,
+    /// From the gauge zero, fully correlated (m³).
+    pub u_zero_m3: f64,
+    /// From reading noise, independent between readings (m³).
+    pub u_random_m3: f64,
+    /// What the reading noise would give if it were wrongly treated as fully correlated (m³).
+    pub u_random_if_correlated_m3: f64,
+}
+
+impl PeriodUncertainty {
+    /// Combined standard uncertainty of the volume (m³).
+    pub fn u_total_m3(&self) -> f64 {
+        (self.u_coefficient_m3.powi(2)
+            + self.u_dimension_m3.powi(2)
+            + self.u_zero_m3.powi(2)
+            + self.u_random_m3.powi(2))
+        .sqrt()
+    }
+
+    /// Expanded (k = 2, about 95 %) uncertainty of the volume (m³).
+    pub fn expanded_m3(&self) -> f64 {
+        COVERAGE_FACTOR * self.u_total_m3()
+    }
+
+    /// Mean discharge over the covered time (m³/s).
+    pub fn mean_discharge_m3s(&self) -> f64 {
+        if self.covered_s > 0.0 {
+            self.volume_m3 / self.covered_s
+        } else {
+            f64::NAN
+        }
+    }
+}
+
+/// Volume and uncertainty of a period of readings (see the module notes for the correlations).
+pub fn period_uncertainty(inputs: &Inputs, readings: &[SeriesReading]) -> PeriodUncertainty {
+    let mut p = PeriodUncertainty {
+        volume_m3: 0.0,
+        covered_s: 0.0,
+        excluded_s: 0.0,
+        readings: 0,
+        excluded: 0,
+        u_coefficient_m3: 0.0,
+        u_dimension_m3: 0.0,
+        u_zero_m3: 0.0,
+        u_random_m3: 0.0,
+        u_random_if_correlated_m3: 0.0,
+    };
+    let (mut s_cd, mut s_b, mut s_h, mut s_h2) = (0.0, 0.0, 0.0, 0.0);
+    for r in readings {
+        if !r.included {
+            p.excluded += 1;
+            p.excluded_s += r.duration_s;
+            continue;
+        }
+        p.readings += 1;
+        p.covered_s += r.duration_s;
+        p.volume_m3 += r.discharge_m3s * r.duration_s;
+        s_cd += r.dq_dcoefficient * r.duration_s;
+        s_b += r.dq_ddimension * r.duration_s;
+        s_h += r.dq_dhead * r.duration_s;
+        s_h2 += (r.dq_dhead * r.duration_s).powi(2);
+    }
+    p.u_coefficient_m3 = s_cd.abs() * inputs.coefficient.standard;
+    p.u_dimension_m3 = s_b.abs() * inputs.dimension.standard;
+    p.u_zero_m3 = s_h.abs() * inputs.zero.standard;
+    p.u_random_m3 = s_h2.sqrt() * inputs.reading.standard;
+    p.u_random_if_correlated_m3 = s_h.abs() * inputs.reading.standard;
+    p
+}
