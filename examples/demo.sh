@@ -27,5 +27,12 @@ done
 echo "   out/alder-brook-weir-us.csv"
 
 echo
-echo "== 4. one cross-section by hand: critical depth and alternate depths"
+echo "== 4. does the canal flume stay modular when the canal backs up? (exit 1 means: drowned somewhere)"
+code=0
+"$bin" tailwater ratings/ridgeway-canal-flume.toml --plot out/ridgeway-canal-flume-tailwater.png || code=$?
+[ "$code" -le 1 ] || exit "$code"   # 1 = drowned somewhere (expected here); 2 = an error
+echo "   chart: out/ridgeway-canal-flume-tailwater.png"
+
+echo
+echo "== 5. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4

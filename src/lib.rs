@@ -3,5 +3,6 @@ pub mod hydraulics;
 pub mod rating;
 pub mod report;
 pub mod station;
+pub mod tailwater;
 pub mod uncertainty;
 pub mod units;

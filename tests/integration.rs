@@ -7,5 +7,6 @@ mod integration {
     pub mod malformed;
     pub mod properties;
     pub mod references;
+    pub mod tailwater;
     pub mod uncertainty;
 }

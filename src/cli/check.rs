@@ -51,6 +51,7 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
         table: &table,
         units,
         uncertainty: None,
+        modular: None,
     };
     for line in summary.structure_lines() {
         let _ = writeln!(s, "{line}");

@@ -5,6 +5,7 @@ mod check;
 mod output;
 mod rate;
 mod section;
+mod tailwater;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -32,6 +33,8 @@ enum Command {
     Rate(rate::RateArgs),
     /// Validate a station file and report the limits of application of its method
     Check(check::CheckArgs),
+    /// Modular limit and tailwater check over the discharge range
+    Tailwater(tailwater::TailwaterArgs),
 }
 
 /// Output unit system.
@@ -67,6 +70,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Section(a) => section::run(a),
         Command::Rate(a) => rate::run(a),
         Command::Check(a) => check::run(a),
+        Command::Tailwater(a) => tailwater::run(a),
     }
 }
 

@@ -8,6 +8,7 @@ use clap::{Args, ValueEnum};
 use flumerate::rating::{head_sequence, sensible_step, RatingModel, RatingTable};
 use flumerate::report::rating::{RatingReport, UncertaintyColumns};
 use flumerate::station::Station;
+use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
 use flumerate::uncertainty::{departure_from_gum, monte_carlo, GumModel, Inputs, McOptions};
 use flumerate::units::Units;
 
@@ -137,6 +138,22 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
             .then(|| points.iter().map(|p| p.map_or([f64::NAN; 4], |p| p.shares)).collect()),
         monte_carlo: monte,
     };
+    let exit = Exit::from(&station.exit);
+    let tailwater = station
+        .tailwater
+        .clone()
+        .map(|t| Tailwater::new(t, station.structure.gravity_m_s2));
+    let modular: Vec<(f64, f64)> = table
+        .rows
+        .iter()
+        .map(|r| match r.point {
+            Some(p) => {
+                let (ml, _, level) = modular_limit_at(&model, &exit, tailwater.as_ref(), &p);
+                (ml, level)
+            }
+            None => (f64::NAN, f64::NAN),
+        })
+        .collect();
     let report = RatingReport {
         name: &station.name,
         source: &station.source,
@@ -144,6 +161,7 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         table: &table,
         units,
         uncertainty: Some(&columns),
+        modular: Some(&modular),
     };
     let bytes = match a.format {
         TableFormat::Text => report.to_text(),

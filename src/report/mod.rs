@@ -1,6 +1,8 @@
 //! Writers: each turns a computed result into bytes; the caller picks the destination.
 
+pub mod plot;
 pub mod rating;
+pub mod tailwater;
 
 /// The cautions printed with every rating (design.md, "Cautions shown to users").
 pub const CAUTIONS: &str = "CAUTION: a rating computed from dimensions is only as good as the survey and the \

@@ -38,6 +38,8 @@ pub struct RatingReport<'a> {
     pub units: Units,
     /// Uncertainty columns, if computed.
     pub uncertainty: Option<&'a UncertaintyColumns>,
+    /// Per row: modular limit and largest modular tailwater level above the crest (m), if computed.
+    pub modular: Option<&'a [(f64, f64)]>,
 }
 
 /// One output cell.
@@ -65,6 +67,10 @@ impl RatingReport<'_> {
             "froude_approach".into(),
             format!("approach_velocity_{v}"),
         ];
+        if self.modular.is_some() {
+            h.push("modular_limit".into());
+            h.push(format!("max_tailwater_{l}"));
+        }
         if let Some(u) = self.uncertainty {
             h.push("u95_pct".into());
             if u.monte_carlo.is_some() {
@@ -94,6 +100,10 @@ impl RatingReport<'_> {
             num(&|p| p.froude_approach),
             num(&|p| u.length_from_si(p.approach_velocity_m_s)),
         ];
+        if let Some(m) = self.modular {
+            cells.push(Cell::Num(m[index].0));
+            cells.push(Cell::Num(u.length_from_si(m[index].1)));
+        }
         if let Some(unc) = self.uncertainty {
             cells.push(Cell::Num(unc.u95_pct[index]));
             if let Some((mc, _, _)) = &unc.monte_carlo {
@@ -296,6 +306,11 @@ impl RatingReport<'_> {
             s.push_str(&line);
             s.push('\n');
         }
+        if self.modular.is_some() {
+            s.push_str(&format!(
+                "tail<=: the largest tailwater level ({lu} above the crest) at which the flow stays modular (see `flumerate tailwater`)\n"
+            ));
+        }
         s.push('\n');
         let mc = self.uncertainty.and_then(|u| u.monte_carlo.as_ref());
         s.push_str(&format!(
@@ -309,6 +324,9 @@ impl RatingReport<'_> {
             "Fr1",
             "u95 %",
         ));
+        if self.modular.is_some() {
+            s.push_str(&format!(" {:>10}", format!("tail<= {lu}")));
+        }
         if mc.is_some() {
             s.push_str(&format!(" {:>12} {:>12}", "MC low", "MC high"));
         }
@@ -335,6 +353,17 @@ impl RatingReport<'_> {
                 f(&|p| p.froude_approach, 3),
                 u95,
             ));
+            if let Some(m) = self.modular {
+                let v = m[i].1;
+                s.push_str(&format!(
+                    " {:>10}",
+                    if v.is_finite() {
+                        format!("{:.4}", u.length_from_si(v))
+                    } else {
+                        "-".into()
+                    }
+                ));
+            }
             if let Some((rows, _, _)) = mc {
                 let (lo, hi) = rows[i].map_or(("-".to_string(), "-".to_string()), |m| {
                     (

@@ -1,0 +1,100 @@
+//! `flumerate tailwater STATION.toml`: modular limit and tailwater check over the rating range.
+//! Exit 0 when modular throughout, 1 when any part of the range is drowned, 2 on bad input.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::{bail, Context};
+use clap::Args;
+use flumerate::rating::{head_sequence, sensible_step};
+use flumerate::report::plot::{xy_chart, ImageFormat};
+use flumerate::report::tailwater::TailwaterReport;
+use flumerate::tailwater::{check, Exit, Tailwater, Verdict};
+use flumerate::units::Units;
+
+use super::output::{emit, write_atomic};
+use super::rate::TableFormat;
+use super::{OutputArgs, UnitsArg};
+
+#[derive(Debug, Args)]
+pub struct TailwaterArgs {
+    /// Station file (TOML) with a [tailwater] table
+    pub station: PathBuf,
+    /// First head above the crest, in the output unit [default: range.min_head]
+    #[arg(long)]
+    pub from: Option<f64>,
+    /// Last head above the crest, in the output unit [default: range.max_head]
+    #[arg(long)]
+    pub to: Option<f64>,
+    /// Head increment, in the output unit
+    #[arg(long)]
+    pub step: Option<f64>,
+    /// Unit system
+    #[arg(long, value_enum, default_value_t)]
+    pub units: UnitsArg,
+    /// Output format
+    #[arg(long, value_enum, default_value_t)]
+    pub format: TableFormat,
+    /// Also draw head and tailwater against discharge to FILE.png or FILE.svg
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    #[command(flatten)]
+    pub out: OutputArgs,
+}
+
+pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
+    let (station, model) = super::rate::load_model(&a.station)?;
+    let Some(spec) = station.tailwater.clone() else {
+        bail!(
+            "{}: no [tailwater] table: add the tailwater channel (bed_below_crest, shape, manning_n, bed_slope) or a table of [discharge, level]",
+            a.station.display()
+        );
+    };
+    let plot_format = match &a.plot {
+        Some(p) => Some(
+            ImageFormat::from_path(p)
+                .with_context(|| format!("--plot {}: give a .png or .svg file name", p.display()))?,
+        ),
+        None => None,
+    };
+    let units: Units = a.units.into();
+    let from = a.from.unwrap_or(units.length_from_si(station.range.min_head_m));
+    let to = a.to.unwrap_or(units.length_from_si(station.range.max_head_m));
+    let step = a.step.unwrap_or_else(|| sensible_step(to - from));
+    let heads: Vec<f64> = head_sequence(from, to, step)?
+        .into_iter()
+        .map(|h| units.length_to_si(h))
+        .collect();
+    let exit = Exit::from(&station.exit);
+    let tailwater = Tailwater::new(spec, station.structure.gravity_m_s2);
+    let result = check(&model, &exit, &tailwater, &heads)
+        .with_context(|| format!("{}: tailwater check", a.station.display()))?;
+    let method = match exit.fixed_modular_limit {
+        Some(ml) => format!("{ml} as given in [exit] modular_limit"),
+        None => format!(
+            "energy balance over the exit (Bos & Reinink 1981): expansion 1:{} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
+            station.exit.expansion, exit.loss_coefficient
+        ),
+    };
+    let report = TailwaterReport {
+        name: &station.name,
+        source: &station.source,
+        method: &method,
+        check: &result,
+        units,
+    };
+    let bytes = match a.format {
+        TableFormat::Text => report.to_text(),
+        TableFormat::Csv => report.to_csv()?,
+        TableFormat::Json => report.to_json()?,
+    };
+    if let (Some(path), Some(fmt)) = (&a.plot, plot_format) {
+        let img = xy_chart(&report.chart(), fmt)?;
+        write_atomic(path, &img)?;
+    }
+    emit(&bytes, a.out.output.as_deref())?;
+    Ok(match result.verdict {
+        Verdict::Modular => ExitCode::SUCCESS,
+        Verdict::Drowns { .. } => ExitCode::from(1),
+    })
+}

@@ -1,0 +1,285 @@
+//! The tailwater check as text, CSV, JSON and a chart.
+
+use serde_json::{json, Map, Value};
+
+use super::plot::{Line, XyChart};
+use super::{sig, wrap, CAUTIONS};
+use crate::tailwater::{TailwaterCheck, TailwaterRow, Verdict};
+use crate::units::Units;
+use plotters::style::RGBColor;
+
+/// Everything the tailwater report shows.
+#[derive(Debug, Clone, Copy)]
+pub struct TailwaterReport<'a> {
+    /// Station name.
+    pub name: &'a str,
+    /// Station file.
+    pub source: &'a str,
+    /// How the modular limit was obtained, for the header.
+    pub method: &'a str,
+    /// The check.
+    pub check: &'a TailwaterCheck,
+    /// Output units.
+    pub units: Units,
+}
+
+impl TailwaterReport<'_> {
+    /// Column names (design.md's six first).
+    pub fn headers(&self) -> Vec<String> {
+        let (l, q) = (self.units.length_suffix(), self.units.discharge_suffix());
+        vec![
+            format!("discharge_{q}"),
+            format!("head_{l}"),
+            format!("tailwater_{l}"),
+            "submergence".into(),
+            "modular_limit".into(),
+            "modular".into(),
+            format!("max_tailwater_{l}"),
+            format!("energy_head_{l}"),
+            format!("tailwater_energy_{l}"),
+            "note".into(),
+        ]
+    }
+
+    fn values(&self, row: &TailwaterRow) -> [f64; 9] {
+        let u = self.units;
+        [
+            u.discharge_from_si(row.discharge_m3s),
+            u.length_from_si(row.head_m),
+            u.length_from_si(row.tailwater_m),
+            row.submergence,
+            row.modular_limit,
+            if row.modular { 1.0 } else { 0.0 },
+            u.length_from_si(row.max_tailwater_m),
+            u.length_from_si(row.energy_head_m),
+            u.length_from_si(row.tailwater_energy_m),
+        ]
+    }
+
+    /// The verdict in one sentence, in output units.
+    pub fn verdict_line(&self) -> String {
+        let (lu, qu) = self.units.symbols();
+        let top = self
+            .check
+            .rows
+            .iter()
+            .filter_map(|(_, r)| r.as_ref().ok())
+            .map(|r| r.discharge_m3s)
+            .fold(f64::NAN, f64::max);
+        match self.check.verdict {
+            Verdict::Modular => format!(
+                "verdict: modular across the range checked (up to {} {qu})",
+                sig(self.units.discharge_from_si(top), 4)
+            ),
+            Verdict::Drowns {
+                from_m3s,
+                from_head_m,
+                crest_raise_m,
+            } => {
+                let fix = match crest_raise_m {
+                    Some(r) => format!(
+                        "raising the crest by {} {lu} (approach bed and tailwater channel unchanged) would keep it modular up to {} {qu}",
+                        sig(self.units.length_from_si(r), 3),
+                        sig(self.units.discharge_from_si(top), 4)
+                    ),
+                    None => "no crest raise up to 2 m keeps it modular: lower the tailwater or redesign the exit".into(),
+                };
+                format!(
+                    "verdict: DROWNED from {} {qu} (h1 = {} {lu}) upward; above it the rating reads high. {fix}",
+                    sig(self.units.discharge_from_si(from_m3s), 4),
+                    sig(self.units.length_from_si(from_head_m), 4)
+                )
+            }
+        }
+    }
+
+    /// CSV, full precision; `modular` as true/false.
+    pub fn to_csv(&self) -> Result<Vec<u8>, csv::Error> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        w.write_record(self.headers())?;
+        for (h, r) in &self.check.rows {
+            let rec: Vec<String> = match r {
+                Ok(row) => {
+                    let v = self.values(row);
+                    let mut rec: Vec<String> = v.iter().map(|x| format!("{x}")).collect();
+                    rec[5] = row.modular.to_string();
+                    rec.push(String::new());
+                    rec
+                }
+                Err(e) => {
+                    let mut rec = vec![String::new(); 9];
+                    rec[1] = format!("{}", self.units.length_from_si(*h));
+                    rec.push(e.clone());
+                    rec
+                }
+            };
+            w.write_record(&rec)?;
+        }
+        w.flush()?;
+        Ok(w.into_inner().map_err(|e| e.into_error())?)
+    }
+
+    /// JSON document with rows, verdict and cautions.
+    pub fn to_json(&self) -> Result<Vec<u8>, serde_json::Error> {
+        let headers = self.headers();
+        let rows: Vec<Value> = self
+            .check
+            .rows
+            .iter()
+            .map(|(h, r)| {
+                let mut m = Map::new();
+                match r {
+                    Ok(row) => {
+                        for (k, v) in headers.iter().zip(self.values(row)) {
+                            m.insert(k.clone(), json!(v));
+                        }
+                        m.insert("modular".into(), json!(row.modular));
+                        m.insert("note".into(), json!(""));
+                    }
+                    Err(e) => {
+                        m.insert(headers[1].clone(), json!(self.units.length_from_si(*h)));
+                        m.insert("note".into(), json!(e));
+                    }
+                }
+                Value::Object(m)
+            })
+            .collect();
+        let verdict = match self.check.verdict {
+            Verdict::Modular => json!({"modular": true}),
+            Verdict::Drowns {
+                from_m3s,
+                from_head_m,
+                crest_raise_m,
+            } => json!({
+                "modular": false,
+                format!("drowned_from_{}", self.units.discharge_suffix()): self.units.discharge_from_si(from_m3s),
+                format!("drowned_from_head_{}", self.units.length_suffix()): self.units.length_from_si(from_head_m),
+                format!("crest_raise_{}", self.units.length_suffix()): crest_raise_m.map(|r| self.units.length_from_si(r)),
+            }),
+        };
+        let mut out = serde_json::to_vec_pretty(&json!({
+            "station": self.name,
+            "station_file": self.source,
+            "units": match self.units { Units::Si => "si", Units::Us => "us" },
+            "modular_limit_method": self.method,
+            "rows": rows,
+            "verdict": verdict,
+            "verdict_text": self.verdict_line(),
+            "cautions": CAUTIONS,
+        }))?;
+        out.push(b'\n');
+        Ok(out)
+    }
+
+    /// Readable table with verdict and cautions.
+    pub fn to_text(&self) -> Vec<u8> {
+        let u = self.units;
+        let (lu, qu) = u.symbols();
+        let mut s = format!(
+            "flumerate tailwater check: {}\nstation file: {}\nmodular limit: {}\nlevels in {lu} above the crest (negative: below it), discharge in {qu}; submergence = H2/H1 (energy heads)\n\n",
+            self.name, self.source, self.method
+        );
+        s.push_str(&format!(
+            "{:>12} {:>8} {:>10} {:>7} {:>7} {:>12} {:>8}  note\n",
+            format!("Q {qu}"),
+            format!("h1 {lu}"),
+            format!("tail {lu}"),
+            "H2/H1",
+            "ML",
+            format!("max tail {lu}"),
+            "modular"
+        ));
+        for (h, r) in &self.check.rows {
+            match r {
+                Ok(row) => s.push_str(&format!(
+                    "{:>12} {:>8.4} {:>10.4} {:>7.3} {:>7.3} {:>12.4} {:>8}\n",
+                    sig(u.discharge_from_si(row.discharge_m3s), 4),
+                    u.length_from_si(row.head_m),
+                    u.length_from_si(row.tailwater_m),
+                    row.submergence,
+                    row.modular_limit,
+                    u.length_from_si(row.max_tailwater_m),
+                    if row.modular { "yes" } else { "DROWNED" }
+                )),
+                Err(e) => s.push_str(&format!(
+                    "{:>12} {:>8.4} {:>10} {:>7} {:>7} {:>12} {:>8}  {e}\n",
+                    "-",
+                    u.length_from_si(*h),
+                    "-",
+                    "-",
+                    "-",
+                    "-",
+                    "-"
+                )),
+            }
+        }
+        s.push('\n');
+        s.push_str(&wrap(&self.verdict_line(), 100));
+        s.push_str("\n\nIn the field: read the tailwater gauge (zero at crest level) and compare it with the max tail column for the discharge read upstream; above it the structure is drowned and the rating reads high.\n\n");
+        s.push_str(&wrap(CAUTIONS, 100));
+        s.push('\n');
+        s.into_bytes()
+    }
+
+    /// Head, tailwater and modular tailwater levels against discharge, drowned range shaded.
+    pub fn chart(&self) -> XyChart {
+        let u = self.units;
+        let (lu, qu) = u.symbols();
+        let ok: Vec<&TailwaterRow> = self.check.rows.iter().filter_map(|(_, r)| r.as_ref().ok()).collect();
+        let pts = |f: &dyn Fn(&TailwaterRow) -> f64| -> Vec<(f64, f64)> {
+            ok.iter()
+                .map(|r| (u.discharge_from_si(r.discharge_m3s), u.length_from_si(f(r))))
+                .collect()
+        };
+        // drowned stretches, each end placed where S − ML changes sign (linear interpolation)
+        let excess = |r: &TailwaterRow| r.submergence - r.modular_limit;
+        let q_of = |r: &TailwaterRow| u.discharge_from_si(r.discharge_m3s);
+        let crossing = |a: &TailwaterRow, b: &TailwaterRow| {
+            let (ea, eb) = (excess(a), excess(b));
+            q_of(a) + (q_of(b) - q_of(a)) * (ea / (ea - eb))
+        };
+        let mut shaded = Vec::new();
+        let mut start: Option<f64> = None;
+        for (i, r) in ok.iter().enumerate() {
+            match (r.modular, start) {
+                (false, None) => start = Some(if i > 0 { crossing(ok[i - 1], r) } else { q_of(r) }),
+                (true, Some(a)) => {
+                    shaded.push((a, crossing(ok[i - 1], r)));
+                    start = None;
+                }
+                _ => {}
+            }
+        }
+        if let (Some(a), Some(last)) = (start, ok.last()) {
+            shaded.push((a, q_of(last)));
+        }
+        XyChart {
+            title: format!("{}: tailwater check", self.name),
+            x_label: format!("discharge Q ({qu})"),
+            y_label: format!("level above the crest ({lu})"),
+            lines: vec![
+                Line {
+                    label: "upstream head h1".into(),
+                    points: pts(&|r| r.head_m),
+                    color: RGBColor(20, 70, 160),
+                    dashed: false,
+                },
+                Line {
+                    label: "tailwater level".into(),
+                    points: pts(&|r| r.tailwater_m),
+                    color: RGBColor(30, 140, 60),
+                    dashed: false,
+                },
+                Line {
+                    label: "largest tailwater level for modular flow".into(),
+                    points: pts(&|r| r.max_tailwater_m),
+                    color: RGBColor(200, 40, 40),
+                    dashed: true,
+                },
+            ],
+            shaded,
+            shaded_label: "drowned: the rating reads high".into(),
+            caption: "levels referred to the crest; modular limit by energy balance over the exit. Computed, not gauged: confirm in the field.".into(),
+        }
+    }
+}
