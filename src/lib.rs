@@ -2,6 +2,7 @@
 pub mod hydraulics;
 pub mod rating;
 pub mod report;
+pub mod series;
 pub mod station;
 pub mod tailwater;
 pub mod uncertainty;

@@ -4,6 +4,7 @@
 mod common;
 mod integration {
     pub mod cli;
+    pub mod convert;
     pub mod malformed;
     pub mod properties;
     pub mod references;

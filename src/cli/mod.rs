@@ -2,6 +2,7 @@
 //! command turns its arguments into library calls and writes what they return.
 
 mod check;
+mod convert;
 mod output;
 mod rate;
 mod section;
@@ -35,6 +36,8 @@ enum Command {
     Check(check::CheckArgs),
     /// Modular limit and tailwater check over the discharge range
     Tailwater(tailwater::TailwaterArgs),
+    /// Logger stage records to discharge with a 95 % band and a flag per row
+    Convert(Box<convert::ConvertArgs>),
 }
 
 /// Output unit system.
@@ -71,6 +74,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Rate(a) => rate::run(a),
         Command::Check(a) => check::run(a),
         Command::Tailwater(a) => tailwater::run(a),
+        Command::Convert(a) => convert::run(*a),
     }
 }
 

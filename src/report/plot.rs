@@ -187,3 +187,190 @@ pub fn png_bytes(rgb: Vec<u8>, size: (u32, u32)) -> Result<Vec<u8>, PlotError> {
     img.write_to(&mut out, image::ImageOutputFormat::Png).map_err(err)?;
     Ok(out.into_inner())
 }
+
+/// A long series reduced to one bucket per horizontal pixel for plotting: the mean discharge, the
+/// band's extremes and whether any row in the bucket was flagged.
+#[derive(Debug, Clone)]
+pub struct HydroBuckets {
+    t0_ms: i64,
+    width_ms: f64,
+    sum: Vec<f64>,
+    n: Vec<u32>,
+    lo: Vec<f64>,
+    hi: Vec<f64>,
+    flagged: Vec<bool>,
+}
+
+impl HydroBuckets {
+    /// Buckets covering `[t0_ms, t1_ms]`.
+    pub fn new(t0_ms: i64, t1_ms: i64, buckets: usize) -> Self {
+        let width_ms = ((t1_ms - t0_ms).max(1) as f64) / buckets as f64;
+        Self {
+            t0_ms,
+            width_ms,
+            sum: vec![0.0; buckets],
+            n: vec![0; buckets],
+            lo: vec![f64::INFINITY; buckets],
+            hi: vec![f64::NEG_INFINITY; buckets],
+            flagged: vec![false; buckets],
+        }
+    }
+
+    /// Adds one row: discharge and band (NaN when unknown), and whether its flag is a warning.
+    pub fn add(&mut self, t_ms: i64, q: f64, lo: f64, hi: f64, flagged: bool) {
+        let k = (((t_ms - self.t0_ms) as f64 / self.width_ms) as usize).min(self.n.len() - 1);
+        if flagged {
+            self.flagged[k] = true;
+        }
+        if q.is_finite() && !flagged {
+            self.sum[k] += q;
+            self.n[k] += 1;
+            self.lo[k] = self.lo[k].min(lo);
+            self.hi[k] = self.hi[k].max(hi);
+        }
+    }
+
+    fn time(&self, k: f64, offset_s: i32) -> chrono::NaiveDateTime {
+        let ms = self.t0_ms + (k * self.width_ms) as i64 + i64::from(offset_s) * 1000;
+        chrono::DateTime::from_timestamp_millis(ms)
+            .unwrap_or_default()
+            .naive_utc()
+    }
+}
+
+/// Draws a hydrograph: discharge with its 95 % band, flagged periods shaded, units on the axes.
+/// Times are shown on the clock `offset_s` east of UTC, named by `clock`.
+pub fn hydrograph(
+    b: &HydroBuckets,
+    title: &str,
+    clock: &str,
+    offset_s: i32,
+    format: ImageFormat,
+) -> Result<Vec<u8>, PlotError> {
+    fonts();
+    match format {
+        ImageFormat::Svg => {
+            let mut s = String::new();
+            {
+                let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+                draw_hydrograph(b, title, clock, offset_s, &root)?;
+            }
+            Ok(s.into_bytes())
+        }
+        ImageFormat::Png => {
+            let mut buf = vec![0u8; (SIZE.0 * SIZE.1 * 3) as usize];
+            {
+                let root = BitMapBackend::with_buffer(&mut buf, SIZE).into_drawing_area();
+                draw_hydrograph(b, title, clock, offset_s, &root)?;
+            }
+            png_bytes(buf, SIZE)
+        }
+    }
+}
+
+fn draw_hydrograph<DB: DrawingBackend>(
+    b: &HydroBuckets,
+    title: &str,
+    clock: &str,
+    offset_s: i32,
+    root: &DrawingArea<DB, Shift>,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    use plotters::coord::types::RangedDateTime;
+    root.fill(&WHITE).map_err(err)?;
+    let nb = b.n.len();
+    let y1 = b.hi.iter().copied().filter(|v| v.is_finite()).fold(0.0f64, f64::max);
+    let y1 = if y1 > 0.0 { y1 * 1.08 } else { 1.0 };
+    let (t0, t1) = (b.time(0.0, offset_s), b.time(nb as f64, offset_s));
+    let root = root.titled(title, ("sans-serif", 28, FontStyle::Bold)).map_err(err)?;
+    let (top, body) = root.split_vertically(30);
+    top.draw(&Text::new(
+        "computed from a rating by critical-flow theory; confirm by field gaugings".to_string(),
+        (60, 5),
+        ("sans-serif", 16).into_font(),
+    ))
+    .map_err(err)?;
+    let mut c = ChartBuilder::on(&body)
+        .margin(20)
+        .x_label_area_size(55)
+        .y_label_area_size(80)
+        .build_cartesian_2d(RangedDateTime::from(t0..t1), 0.0..y1)
+        .map_err(err)?;
+    c.configure_mesh()
+        .x_desc(format!("time ({clock})"))
+        .y_desc("discharge Q (m³/s)")
+        .label_style(("sans-serif", 18))
+        .axis_desc_style(("sans-serif", 20))
+        .x_label_formatter(&|t| t.format("%Y-%m-%d").to_string())
+        .draw()
+        .map_err(err)?;
+    let shade = RGBColor(230, 120, 30).mix(0.25);
+    let mut first_shade = true;
+    let mut k = 0;
+    while k < nb {
+        if b.flagged[k] {
+            let start = k;
+            while k < nb && b.flagged[k] {
+                k += 1;
+            }
+            let s = c
+                .draw_series(std::iter::once(Rectangle::new(
+                    [(b.time(start as f64, offset_s), 0.0), (b.time(k as f64, offset_s), y1)],
+                    shade.filled(),
+                )))
+                .map_err(err)?;
+            if first_shade {
+                first_shade = false;
+                s.label("flagged rows (not ok or dry)")
+                    .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], shade.filled()));
+            }
+        } else {
+            k += 1;
+        }
+    }
+    // contiguous runs of buckets with data: band polygon and mean line
+    let band = BLUE.mix(0.22);
+    let mut first_run = true;
+    let mut k = 0;
+    while k < nb {
+        if b.n[k] == 0 {
+            k += 1;
+            continue;
+        }
+        let start = k;
+        while k < nb && b.n[k] > 0 {
+            k += 1;
+        }
+        let mid = |i: usize| b.time(i as f64 + 0.5, offset_s);
+        let upper: Vec<_> = (start..k).map(|i| (mid(i), b.hi[i])).collect();
+        let lower: Vec<_> = (start..k).rev().map(|i| (mid(i), b.lo[i])).collect();
+        let poly: Vec<_> = upper.into_iter().chain(lower).collect();
+        let line: Vec<_> = (start..k).map(|i| (mid(i), b.sum[i] / f64::from(b.n[i]))).collect();
+        let s = c
+            .draw_series(std::iter::once(Polygon::new(poly, band.filled())))
+            .map_err(err)?;
+        if first_run {
+            s.label("95 % band (GUM, k = 2)")
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], band.filled()));
+        }
+        let s = c
+            .draw_series(LineSeries::new(line, BLUE.stroke_width(2)))
+            .map_err(err)?;
+        if first_run {
+            s.label("discharge")
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(3)));
+            first_run = false;
+        }
+    }
+    c.configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .label_font(("sans-serif", 18))
+        .position(SeriesLabelPosition::UpperLeft)
+        .draw()
+        .map_err(err)?;
+    root.present().map_err(err)?;
+    Ok(())
+}

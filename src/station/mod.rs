@@ -160,23 +160,26 @@ impl Default for UncertaintySpec {
     }
 }
 
-/// How the station's logger export reads.
+/// How the station's logger export reads. Columns are names, or 1-based positions written as
+/// digits.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct LoggerSpec {
-    /// Name of the time column.
+    /// The time column.
     pub time_column: Option<String>,
-    /// strftime-style format of the time column.
-    pub time_format: Option<String>,
+    /// strftime-style formats of the time column, tried in order.
+    pub time_formats: Vec<String>,
     /// IANA zone name or fixed offset.
     pub timezone: Option<String>,
-    /// Name of the stage column.
+    /// The stage column.
     pub stage_column: Option<String>,
-    /// Unit of the stage column.
+    /// Unit of the stage column (and of `zero` and `tailwater_zero`).
     pub stage_unit: Option<String>,
     /// Logger stage when the water is level with the crest, in the stage unit.
     pub zero: Option<f64>,
-    /// Name of a logged tailwater column.
+    /// A logged tailwater column.
     pub tailwater_column: Option<String>,
+    /// Tailwater logger reading with the tailwater level with the crest, in the stage unit.
+    pub tailwater_zero: Option<f64>,
     /// Strings that mean "no value".
     pub missing: Vec<String>,
     /// Field separator.
@@ -185,6 +188,16 @@ pub struct LoggerSpec {
     pub decimal_comma: bool,
     /// Lines to skip before the header.
     pub skip_lines: u32,
+    /// Whether the file has a header line (default true).
+    pub header: Option<bool>,
+    /// An absolute-pressure column (instead of a stage column).
+    pub pressure_column: Option<String>,
+    /// Unit of the pressure column and the barometric file: Pa, hPa, mbar, kPa, bar, psi.
+    pub pressure_unit: Option<String>,
+    /// A logged water-temperature column (°C).
+    pub temperature_column: Option<String>,
+    /// Water temperature (°C) where none is logged.
+    pub water_temperature: Option<f64>,
 }
 
 /// A loaded, checked station in SI units.
@@ -1061,6 +1074,19 @@ impl Ctx<'_> {
     fn logger(&self, l: &Spanned<raw::RawLogger>) -> Result<LoggerSpec, StationError> {
         let l = l.get_ref();
         let s = |t: &Option<Text>| t.as_ref().map(|t| t.get_ref().clone());
+        let column = |c: &Option<Spanned<raw::RawColumn>>, key: &str| -> Result<Option<String>, StationError> {
+            match c.as_ref().map(|c| (c.get_ref(), c.span())) {
+                None => Ok(None),
+                Some((raw::RawColumn::Name(n), _)) => Ok(Some(n.clone())),
+                Some((raw::RawColumn::Position(p), _)) if *p >= 1 => Ok(Some(p.to_string())),
+                Some((raw::RawColumn::Position(p), span)) => Err(self.err(
+                    span,
+                    key,
+                    format!("column position {p} is not valid: positions start at 1"),
+                    "give the column's name in quotes, or its position counting from 1",
+                )),
+            }
+        };
         if let Some(u) = &l.stage_unit {
             if !["m", "cm", "mm", "ft", "in"].contains(&u.get_ref().as_str()) {
                 return Err(self.err(
@@ -1071,8 +1097,28 @@ impl Ctx<'_> {
                 ));
             }
         }
+        if let Some(u) = &l.pressure_unit {
+            if crate::series::correct::pascals_per(u.get_ref()).is_none() {
+                return Err(self.err(
+                    u.span(),
+                    "logger.pressure_unit",
+                    format!("unknown pressure unit \"{}\"", u.get_ref()),
+                    "use \"kPa\", \"hPa\", \"mbar\", \"bar\", \"Pa\" or \"psi\"",
+                ));
+            }
+        }
+        if let Some(z) = &l.timezone {
+            if let Err(e) = crate::series::time::Zone::parse(z.get_ref()) {
+                return Err(self.err(
+                    z.span(),
+                    "logger.timezone",
+                    e,
+                    "give an IANA name such as \"Europe/Berlin\" or a fixed offset such as \"+01:00\"",
+                ));
+            }
+        }
         if let Some(sep) = &l.separator {
-            if sep.get_ref().chars().count() != 1 {
+            if sep.get_ref().chars().count() != 1 || !sep.get_ref().is_ascii() {
                 return Err(self.err(
                     sep.span(),
                     "logger.separator",
@@ -1081,18 +1127,47 @@ impl Ctx<'_> {
                 ));
             }
         }
+        let formats = match l.time_format.as_ref().map(|f| f.get_ref()) {
+            None => Vec::new(),
+            Some(raw::RawFormats::One(f)) => vec![f.clone()],
+            Some(raw::RawFormats::Many(v)) => v.clone(),
+        };
+        let temperature = l
+            .water_temperature
+            .as_ref()
+            .map(|t| {
+                self.bounded(
+                    t,
+                    "logger.water_temperature",
+                    0.0,
+                    40.0,
+                    false,
+                    "give the water temperature in °C (0 to 40)",
+                )
+            })
+            .transpose()?;
         Ok(LoggerSpec {
-            time_column: s(&l.time_column),
-            time_format: s(&l.time_format),
+            time_column: column(&l.time_column, "logger.time_column")?,
+            time_formats: formats,
             timezone: s(&l.timezone),
-            stage_column: s(&l.stage_column),
+            stage_column: column(&l.stage_column, "logger.stage_column")?,
             stage_unit: s(&l.stage_unit),
             zero: l.zero.as_ref().map(|z| self.number(z, "logger.zero")).transpose()?,
-            tailwater_column: s(&l.tailwater_column),
+            tailwater_column: column(&l.tailwater_column, "logger.tailwater_column")?,
+            tailwater_zero: l
+                .tailwater_zero
+                .as_ref()
+                .map(|z| self.number(z, "logger.tailwater_zero"))
+                .transpose()?,
             missing: l.missing.as_ref().map(|m| m.get_ref().clone()).unwrap_or_default(),
             separator: s(&l.separator),
             decimal_comma: l.decimal_comma.as_ref().is_some_and(|d| *d.get_ref()),
             skip_lines: l.skip_lines.as_ref().map_or(0, |d| *d.get_ref()),
+            header: l.header.as_ref().map(|h| *h.get_ref()),
+            pressure_column: column(&l.pressure_column, "logger.pressure_column")?,
+            pressure_unit: s(&l.pressure_unit),
+            temperature_column: column(&l.temperature_column, "logger.temperature_column")?,
+            water_temperature: temperature,
         })
     }
 }

@@ -111,19 +111,45 @@ pub struct RawUncertainty {
     pub coverage_factor: Option<Num>,
 }
 
+/// A column by name (`"stage"`) or 1-based position (`2`).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+pub enum RawColumn {
+    /// By position.
+    Position(i64),
+    /// By name.
+    Name(String),
+}
+
+/// One format or a list of them.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+pub enum RawFormats {
+    /// One.
+    One(String),
+    /// Several, tried in order.
+    Many(Vec<String>),
+}
+
 /// `[logger]`
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawLogger {
-    pub time_column: Option<Text>,
-    pub time_format: Option<Text>,
+    pub time_column: Option<Spanned<RawColumn>>,
+    pub time_format: Option<Spanned<RawFormats>>,
     pub timezone: Option<Text>,
-    pub stage_column: Option<Text>,
+    pub stage_column: Option<Spanned<RawColumn>>,
     pub stage_unit: Option<Text>,
     pub zero: Option<Num>,
-    pub tailwater_column: Option<Text>,
+    pub tailwater_column: Option<Spanned<RawColumn>>,
+    pub tailwater_zero: Option<Num>,
     pub missing: Option<Spanned<Vec<String>>>,
     pub separator: Option<Text>,
     pub decimal_comma: Option<Spanned<bool>>,
     pub skip_lines: Option<Spanned<u32>>,
+    pub header: Option<Spanned<bool>>,
+    pub pressure_column: Option<Spanned<RawColumn>>,
+    pub pressure_unit: Option<Text>,
+    pub temperature_column: Option<Spanned<RawColumn>>,
+    pub water_temperature: Option<Num>,
 }

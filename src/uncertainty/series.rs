@@ -103,39 +103,60 @@ impl PeriodUncertainty {
     }
 }
 
+/// Running sums for [`PeriodUncertainty`], fed one reading at a time (long series need not be
+/// held in memory).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct PeriodAccumulator {
+    volume_m3: f64,
+    covered_s: f64,
+    excluded_s: f64,
+    readings: usize,
+    excluded: usize,
+    s_cd: f64,
+    s_b: f64,
+    s_h: f64,
+    s_h2: f64,
+}
+
+impl PeriodAccumulator {
+    /// Adds one reading.
+    pub fn push(&mut self, r: &SeriesReading) {
+        if !r.included {
+            self.excluded += 1;
+            self.excluded_s += r.duration_s;
+            return;
+        }
+        self.readings += 1;
+        self.covered_s += r.duration_s;
+        self.volume_m3 += r.discharge_m3s * r.duration_s;
+        self.s_cd += r.dq_dcoefficient * r.duration_s;
+        self.s_b += r.dq_ddimension * r.duration_s;
+        self.s_h += r.dq_dhead * r.duration_s;
+        self.s_h2 += (r.dq_dhead * r.duration_s).powi(2);
+    }
+
+    /// The period's volume and uncertainty.
+    pub fn finish(&self, inputs: &Inputs) -> PeriodUncertainty {
+        PeriodUncertainty {
+            volume_m3: self.volume_m3,
+            covered_s: self.covered_s,
+            excluded_s: self.excluded_s,
+            readings: self.readings,
+            excluded: self.excluded,
+            u_coefficient_m3: self.s_cd.abs() * inputs.coefficient.standard,
+            u_dimension_m3: self.s_b.abs() * inputs.dimension.standard,
+            u_zero_m3: self.s_h.abs() * inputs.zero.standard,
+            u_random_m3: self.s_h2.sqrt() * inputs.reading.standard,
+            u_random_if_correlated_m3: self.s_h.abs() * inputs.reading.standard,
+        }
+    }
+}
+
 /// Volume and uncertainty of a period of readings (see the module notes for the correlations).
 pub fn period_uncertainty(inputs: &Inputs, readings: &[SeriesReading]) -> PeriodUncertainty {
-    let mut p = PeriodUncertainty {
-        volume_m3: 0.0,
-        covered_s: 0.0,
-        excluded_s: 0.0,
-        readings: 0,
-        excluded: 0,
-        u_coefficient_m3: 0.0,
-        u_dimension_m3: 0.0,
-        u_zero_m3: 0.0,
-        u_random_m3: 0.0,
-        u_random_if_correlated_m3: 0.0,
-    };
-    let (mut s_cd, mut s_b, mut s_h, mut s_h2) = (0.0, 0.0, 0.0, 0.0);
+    let mut acc = PeriodAccumulator::default();
     for r in readings {
-        if !r.included {
-            p.excluded += 1;
-            p.excluded_s += r.duration_s;
-            continue;
-        }
-        p.readings += 1;
-        p.covered_s += r.duration_s;
-        p.volume_m3 += r.discharge_m3s * r.duration_s;
-        s_cd += r.dq_dcoefficient * r.duration_s;
-        s_b += r.dq_ddimension * r.duration_s;
-        s_h += r.dq_dhead * r.duration_s;
-        s_h2 += (r.dq_dhead * r.duration_s).powi(2);
+        acc.push(r);
     }
-    p.u_coefficient_m3 = s_cd.abs() * inputs.coefficient.standard;
-    p.u_dimension_m3 = s_b.abs() * inputs.dimension.standard;
-    p.u_zero_m3 = s_h.abs() * inputs.zero.standard;
-    p.u_random_m3 = s_h2.sqrt() * inputs.reading.standard;
-    p.u_random_if_correlated_m3 = s_h.abs() * inputs.reading.standard;
-    p
+    acc.finish(inputs)
 }

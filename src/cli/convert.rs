@@ -1,0 +1,688 @@
+//! `flumerate convert LOGGER.csv --station STATION.toml -o OUT.csv|OUT.parquet`: logger stage
+//! records to discharge with a 95 % band and a flag per row, daily and monthly summaries, a
+//! hydrograph and a provenance record. Every non-blank input line gives exactly one output row.
+
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::{bail, Context};
+use clap::Args;
+use flumerate::rating::fit_power_law;
+use flumerate::report::plot::{hydrograph, HydroBuckets, ImageFormat};
+use flumerate::report::{sig, wrap, CAUTIONS};
+use flumerate::series::convert::{
+    local_days, nominal_interval_ms, order_counts, time_note_lines, usable_drift, Conversion, Counts, Flag,
+    StageSource, Summaries,
+};
+use flumerate::series::correct::{drift_points, metres_per, pascals_per, DriftPoint, TimeSeries};
+use flumerate::series::dense::DenseRating;
+use flumerate::series::output::{temp_path, write_summary, SeriesWriter, TableFile};
+use flumerate::series::read::{read_logger, ColumnRef, ReadSettings};
+use flumerate::series::time::{parse_any, resolve, TimeFormat, Zone, NO_TIME};
+use flumerate::station::LoggerSpec;
+use flumerate::tailwater::{Exit, Tailwater};
+use flumerate::uncertainty::{GumModel, Inputs};
+use serde_json::json;
+
+use super::output::{emit, write_atomic};
+
+/// Rows per output chunk.
+const CHUNK_ROWS: usize = 1 << 20;
+/// Default time formats, tried in order.
+const DEFAULT_FORMATS: [&str; 4] = [
+    "%Y-%m-%d %H:%M:%S",
+    "%Y-%m-%d %H:%M",
+    "%Y-%m-%dT%H:%M:%S",
+    "%Y-%m-%dT%H:%M",
+];
+
+#[derive(Debug, Args)]
+pub struct ConvertArgs {
+    /// Logger export (delimited text)
+    pub logger: PathBuf,
+    /// Station file (TOML); its [logger] table says how the export reads
+    #[arg(long)]
+    pub station: PathBuf,
+    /// Converted series: OUT.csv or OUT.parquet
+    #[arg(short = 'o', long = "output", value_name = "OUT")]
+    pub output: PathBuf,
+    /// Daily summary: FILE.csv or FILE.parquet
+    #[arg(long, value_name = "FILE")]
+    pub daily: Option<PathBuf>,
+    /// Monthly summary: FILE.csv or FILE.parquet
+    #[arg(long, value_name = "FILE")]
+    pub monthly: Option<PathBuf>,
+    /// Hydrograph with the 95 % band: FILE.png or FILE.svg
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// Provenance record [default: OUT.provenance.json]
+    #[arg(long, value_name = "FILE")]
+    pub provenance: Option<PathBuf>,
+    /// Field visits: CSV with `time` and `head_m` (or head_cm, head_mm, head_ft), staff-gauge head
+    /// above the crest, for drift correction
+    #[arg(long, value_name = "FILE")]
+    pub visits: Option<PathBuf>,
+    /// Barometric pressure: CSV with `time` and `pressure`, in the logger's pressure unit
+    #[arg(long, value_name = "FILE")]
+    pub baro: Option<PathBuf>,
+    /// Write rows sorted by time (then by line) instead of in input order
+    #[arg(long)]
+    pub sort: bool,
+    /// For rows flagged submerged, give the drowned-flow estimate where its source applies
+    #[arg(long = "submerged-estimate")]
+    pub submerged_estimate: bool,
+    /// Exit with code 1 when any row is flagged other than ok or dry
+    #[arg(long)]
+    pub strict: bool,
+    /// Time column (name, or 1-based position)
+    #[arg(long = "time-column")]
+    pub time_column: Option<String>,
+    /// Time format (strftime style); repeat for several, tried in order
+    #[arg(long = "time-format")]
+    pub time_format: Vec<String>,
+    /// Time zone of the logger's clock: IANA name or fixed offset such as +01:00
+    #[arg(long)]
+    pub timezone: Option<String>,
+    /// Stage column (name, or 1-based position)
+    #[arg(long = "stage-column")]
+    pub stage_column: Option<String>,
+    /// Stage unit: m, cm, mm, ft, in
+    #[arg(long = "stage-unit")]
+    pub stage_unit: Option<String>,
+    /// Logger stage with the water level with the crest, in the stage unit
+    #[arg(long, allow_hyphen_values = true)]
+    pub zero: Option<f64>,
+    /// Field separator (one character; `\t` for tab)
+    #[arg(long)]
+    pub separator: Option<String>,
+    /// Numbers use a decimal comma
+    #[arg(long = "decimal-comma")]
+    pub decimal_comma: bool,
+    /// Lines to skip before the header
+    #[arg(long = "skip-lines")]
+    pub skip_lines: Option<u32>,
+    /// The file has no header line (columns by position)
+    #[arg(long = "no-header")]
+    pub no_header: bool,
+    /// A text meaning "no value"; repeat for several
+    #[arg(long, allow_hyphen_values = true)]
+    pub missing: Vec<String>,
+    /// Logged tailwater column (name or position), in the stage unit
+    #[arg(long = "tailwater-column")]
+    pub tailwater_column: Option<String>,
+    /// Tailwater logger reading with the tailwater level with the crest, in the stage unit
+    #[arg(long = "tailwater-zero", allow_hyphen_values = true)]
+    pub tailwater_zero: Option<f64>,
+    /// Absolute-pressure column (name or position), instead of a stage column
+    #[arg(long = "pressure-column")]
+    pub pressure_column: Option<String>,
+    /// Pressure unit of the logger and barometric file: kPa, hPa, mbar, bar, Pa, psi
+    #[arg(long = "pressure-unit")]
+    pub pressure_unit: Option<String>,
+    /// Logged water-temperature column (°C)
+    #[arg(long = "temperature-column")]
+    pub temperature_column: Option<String>,
+    /// Water temperature (°C) where none is logged [default: 10]
+    #[arg(long = "water-temperature")]
+    pub water_temperature: Option<f64>,
+}
+
+/// Settings after flags override the station's [logger].
+struct Resolved {
+    read: ReadSettings,
+    zone: Zone,
+    zone_text: String,
+    stage_unit: String,
+    zero: f64,
+    pressure_unit: Option<String>,
+    water_temperature: f64,
+    tailwater_zero: Option<f64>,
+    temperature_index: Option<usize>,
+    tailwater_index: Option<usize>,
+}
+
+fn resolve_settings(a: &ConvertArgs, l: &LoggerSpec) -> anyhow::Result<Resolved> {
+    let pick = |flag: &Option<String>, file: &Option<String>| flag.clone().or_else(|| file.clone());
+    let tz = pick(&a.timezone, &l.timezone).context(
+        "no time zone for the logger's clock: add [logger] timezone to the station file or give --timezone (an IANA name such as Europe/Berlin, or a fixed offset such as +01:00); flumerate never guesses it",
+    )?;
+    let zone = Zone::parse(&tz).map_err(|e| anyhow::anyhow!("--timezone: {e}"))?;
+    let zero = a.zero.or(l.zero).context(
+        "no gauge zero: add [logger] zero (the logger stage with the water level with the crest) or give --zero",
+    )?;
+    let stage_unit = pick(&a.stage_unit, &l.stage_unit).unwrap_or_else(|| "m".into());
+    if metres_per(&stage_unit).is_none() {
+        bail!("--stage-unit {stage_unit}: use m, cm, mm, ft or in");
+    }
+    let separator = match pick(&a.separator, &l.separator).as_deref() {
+        None => b',',
+        Some("\\t") | Some("\t") => b'\t',
+        Some(s) if s.len() == 1 && s.is_ascii() => s.as_bytes()[0],
+        Some(s) => bail!("--separator \"{s}\": give one character"),
+    };
+    let decimal_comma = a.decimal_comma || l.decimal_comma;
+    if decimal_comma && separator == b',' {
+        bail!("a decimal comma needs another field separator: give --separator \";\" (or [logger] separator)");
+    }
+    let formats: Vec<String> = if !a.time_format.is_empty() {
+        a.time_format.clone()
+    } else if !l.time_formats.is_empty() {
+        l.time_formats.clone()
+    } else {
+        DEFAULT_FORMATS.iter().map(|s| s.to_string()).collect()
+    };
+    let pressure = pick(&a.pressure_column, &l.pressure_column);
+    let pressure_unit = pick(&a.pressure_unit, &l.pressure_unit);
+    let mut values = vec![match &pressure {
+        Some(p) => ColumnRef::parse(p),
+        None => ColumnRef::parse(&pick(&a.stage_column, &l.stage_column).unwrap_or_else(|| "stage".into())),
+    }];
+    let mut tailwater_index = None;
+    if let Some(tw) = pick(&a.tailwater_column, &l.tailwater_column) {
+        tailwater_index = Some(values.len());
+        values.push(ColumnRef::parse(&tw));
+    }
+    let mut temperature_index = None;
+    if let Some(t) = pick(&a.temperature_column, &l.temperature_column) {
+        if pressure.is_none() {
+            bail!("a temperature column is only used with a pressure column (barometric compensation)");
+        }
+        temperature_index = Some(values.len());
+        values.push(ColumnRef::parse(&t));
+    }
+    if pressure.is_some() {
+        let unit = pressure_unit.as_deref().unwrap_or("kPa");
+        if pascals_per(unit).is_none() {
+            bail!("--pressure-unit {unit}: use kPa, hPa, mbar, bar, Pa or psi");
+        }
+        if a.baro.is_none() {
+            bail!("a pressure column needs a barometric series: give --baro FILE (CSV with time and pressure)");
+        }
+    }
+    let mut missing = l.missing.clone();
+    missing.extend(a.missing.iter().cloned());
+    Ok(Resolved {
+        read: ReadSettings {
+            separator,
+            decimal_comma,
+            skip_lines: a.skip_lines.unwrap_or(l.skip_lines) as usize,
+            has_header: !a.no_header && l.header.unwrap_or(true),
+            time: ColumnRef::parse(&pick(&a.time_column, &l.time_column).unwrap_or_else(|| "time".into())),
+            formats: formats.iter().map(|f| TimeFormat::new(f)).collect(),
+            values,
+            missing,
+        },
+        zone,
+        zone_text: tz,
+        stage_unit,
+        zero,
+        pressure_unit: pressure.map(|_| pressure_unit.unwrap_or_else(|| "kPa".into())),
+        water_temperature: a.water_temperature.or(l.water_temperature).unwrap_or(10.0),
+        tailwater_zero: a.tailwater_zero.or(l.tailwater_zero),
+        temperature_index,
+        tailwater_index,
+    })
+}
+
+/// Reads a small side file (visits, barometric) with a `time` column and one value column whose
+/// name starts with `prefix`; returns (UTC ms, value, unit suffix).
+fn side_file(
+    path: &Path,
+    prefix: &str,
+    formats: &[TimeFormat],
+    zone: &Zone,
+) -> anyhow::Result<(Vec<(i64, f64)>, String)> {
+    let mut r = csv::ReaderBuilder::new()
+        .flexible(true)
+        .from_path(path)
+        .with_context(|| format!("cannot read {}", path.display()))?;
+    let headers = r
+        .headers()
+        .with_context(|| format!("{}: no header line", path.display()))?
+        .clone();
+    let ti = headers.iter().position(|h| h.trim() == "time").with_context(|| {
+        format!(
+            "{}: no `time` column (the header is: {})",
+            path.display(),
+            headers.iter().collect::<Vec<_>>().join(", ")
+        )
+    })?;
+    let (vi, name) = headers
+        .iter()
+        .enumerate()
+        .find(|(_, h)| h.trim().starts_with(prefix))
+        .map(|(i, h)| (i, h.trim().to_string()))
+        .with_context(|| format!("{}: no `{prefix}…` column", path.display()))?;
+    let unit = name.trim_start_matches(prefix).trim_start_matches('_').to_string();
+    let mut out = Vec::new();
+    for (k, rec) in r.records().enumerate() {
+        let line = k + 2;
+        let rec = rec.with_context(|| format!("{}:{line}: unreadable record", path.display()))?;
+        let t = rec.get(ti).unwrap_or("");
+        let v = rec.get(vi).unwrap_or("");
+        let wall = parse_any(formats, t).with_context(|| {
+            format!(
+                "{}:{line}: time \"{t}\" matches none of the logger's formats",
+                path.display()
+            )
+        })?;
+        let (utc, _) = resolve(zone, &[wall]);
+        if utc[0] == NO_TIME {
+            bail!(
+                "{}:{line}: time \"{t}\" does not exist on the logger's clock (daylight-saving gap)",
+                path.display()
+            );
+        }
+        let v: f64 = v
+            .trim()
+            .parse()
+            .with_context(|| format!("{}:{line}: \"{v}\" is not a number", path.display()))?;
+        out.push((utc[0], v));
+    }
+    Ok((out, unit))
+}
+
+fn hash_file(path: &Path) -> anyhow::Result<String> {
+    use sha2::Digest;
+    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+    Ok(format!("{:x}", sha2::Sha256::digest(&bytes)))
+}
+
+fn lines_text(lines: &[u32], max: usize) -> String {
+    let mut s: Vec<String> = lines.iter().take(max).map(|l| l.to_string()).collect();
+    if lines.len() > max {
+        s.push(format!("… ({} more in the provenance file)", lines.len() - max));
+    }
+    s.join(", ")
+}
+
+pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
+    if TableFile::from_path(&a.output).is_none() {
+        bail!("-o {}: the output must end in .csv or .parquet", a.output.display());
+    }
+    for (flag, p) in [("--daily", &a.daily), ("--monthly", &a.monthly)] {
+        if let Some(p) = p {
+            if TableFile::from_path(p).is_none() {
+                bail!("{flag} {}: give a .csv or .parquet file", p.display());
+            }
+        }
+    }
+    let plot_format = match &a.plot {
+        Some(p) => Some(
+            ImageFormat::from_path(p).with_context(|| format!("--plot {}: give a .png or .svg file", p.display()))?,
+        ),
+        None => None,
+    };
+    let (station, model) = super::rate::load_model(&a.station)?;
+    let logger = station.logger.clone().unwrap_or_default();
+    let s = resolve_settings(&a, &logger)?;
+    let g = station.structure.gravity_m_s2;
+
+    // 1. read (polars), block by block
+    let size = std::fs::metadata(&a.logger)
+        .with_context(|| format!("cannot read logger file {}", a.logger.display()))?
+        .len();
+    let bar = if std::io::stderr().is_terminal() {
+        let b = indicatif::ProgressBar::new(size);
+        if let Ok(style) = indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {bytes}/{total_bytes} {eta}") {
+            b.set_style(style);
+        }
+        b.set_message("reading");
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    let raw = read_logger(&a.logger, &s.read, |n| bar.set_position(n))?;
+    bar.set_message("converting");
+
+    // 2. times
+    let (utc, notes) = resolve(&s.zone, &raw.wall_ms);
+    let days = local_days(&raw.wall_ms);
+    let (backwards, duplicates) = order_counts(&utc);
+    let interval_ms = nominal_interval_ms(&utc).context("fewer than two readings with a time: nothing to convert")?;
+    let interval_s = interval_ms as f64 / 1000.0;
+
+    // 3. the rating, its uncertainty and the exit
+    let inputs = Inputs::from_station(&station.uncertainty, &station.structure);
+    let gum = GumModel::new(&model, inputs.clone())?;
+    let exit = Exit::from(&station.exit);
+    let tailwater = station.tailwater.clone().map(|t| Tailwater::new(t, g));
+    let top = 1.5 * station.range.max_head_m;
+    let table = DenseRating::new(&gum, &exit, tailwater.as_ref(), top, station.range.min_head_m)?;
+    let fit_points: Vec<(f64, f64)> = (0..200)
+        .map(|k| {
+            let h = station.range.min_head_m + (station.range.max_head_m - station.range.min_head_m) * k as f64 / 199.0;
+            (h, table.eval(h).map_or(f64::NAN, |r| r.discharge_m3s))
+        })
+        .collect();
+    let exponent = fit_power_law(&fit_points).map_or(1.5, |e| e.u);
+
+    // 4. corrections
+    let m_per = metres_per(&s.stage_unit).expect("checked");
+    let stage = match &s.pressure_unit {
+        None => StageSource::Level { metres_per_unit: m_per },
+        Some(unit) => {
+            let path = a.baro.as_ref().expect("checked");
+            let (points, _) = side_file(path, "pressure", &s.read.formats, &s.zone)?;
+            let pa = pascals_per(unit).expect("checked");
+            StageSource::Pressure {
+                pascals_per_unit: pa,
+                baro_pa: TimeSeries::new(points.into_iter().map(|(t, v)| (t, v * pa)).collect()),
+                baro_max_gap_ms: (3 * 3_600_000).max(3 * interval_ms),
+                water_temperature_c: s.water_temperature,
+                temperature_column: s.temperature_index,
+            }
+        }
+    };
+    let mut conv = Conversion {
+        gum: &gum,
+        table: &table,
+        range: station.range,
+        stage,
+        zero_m: s.zero * m_per,
+        drift: Vec::new(),
+        tailwater_column: s
+            .tailwater_index
+            .map(|k| (k, m_per, s.tailwater_zero.unwrap_or(0.0) * m_per)),
+        tailwater: tailwater.as_ref(),
+        submerged_estimate: a.submerged_estimate,
+        exponent,
+        interval_s,
+        gravity_m_s2: g,
+    };
+    if s.tailwater_index.is_some() && s.tailwater_zero.is_none() {
+        bail!("a tailwater column needs its zero: add [logger] tailwater_zero (the tailwater logger reading with the water level with the crest) or give --tailwater-zero");
+    }
+    let mut drift_record: Vec<DriftPoint> = Vec::new();
+    if let Some(path) = &a.visits {
+        let (visits, unit) = side_file(path, "head", &s.read.formats, &s.zone)?;
+        let per = metres_per(if unit.is_empty() { "m" } else { &unit }).with_context(|| {
+            format!(
+                "{}: head unit \"{unit}\": name the column head_m, head_cm, head_mm or head_ft",
+                path.display()
+            )
+        })?;
+        // logger heads (before drift) around each visit, from the readings nearest in time
+        let max_gap = (3 * interval_ms).max(3_600_000);
+        let mut near: Vec<(i64, f64)> = Vec::new();
+        for &(tv, _) in &visits {
+            let mut before: Option<(i64, f64)> = None;
+            let mut after: Option<(i64, f64)> = None;
+            for (i, &t) in utc.iter().enumerate() {
+                if t == NO_TIME || (t - tv).abs() > max_gap {
+                    continue;
+                }
+                let h = conv.stage_of(t, &raw.values, i).0 - conv.zero_m;
+                if !h.is_finite() {
+                    continue;
+                }
+                if t <= tv && before.is_none_or(|b| t > b.0) {
+                    before = Some((t, h));
+                }
+                if t >= tv && after.is_none_or(|b| t < b.0) {
+                    after = Some((t, h));
+                }
+            }
+            near.extend(before);
+            near.extend(after);
+        }
+        let series = TimeSeries::new(near);
+        drift_record = drift_points(
+            &visits.iter().map(|&(t, v)| (t, v * per)).collect::<Vec<_>>(),
+            &series,
+            max_gap,
+        );
+        conv.drift = usable_drift(&drift_record);
+    }
+
+    // 5. convert and write, chunk by chunk
+    let n = raw.lines.len();
+    let mut order: Vec<usize> = (0..n).collect();
+    if a.sort {
+        order.sort_by_key(|&i| (if utc[i] == NO_TIME { i64::MAX } else { utc[i] }, raw.lines[i]));
+    }
+    let (t_min, t_max) = utc
+        .iter()
+        .filter(|t| **t != NO_TIME)
+        .fold((i64::MAX, i64::MIN), |(lo, hi), &t| (lo.min(t), hi.max(t)));
+    let mut buckets = HydroBuckets::new(t_min, t_max, 1100);
+    let mut counts = Counts::default();
+    let mut summaries = Summaries::default();
+    let mut writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
+        .with_context(|| format!("cannot write {}", a.output.display()))?;
+    let result = (|| -> anyhow::Result<()> {
+        for part in order.chunks(CHUNK_ROWS) {
+            let c = conv.convert_rows(
+                part,
+                &utc,
+                &days,
+                &raw.values,
+                &raw.lines,
+                &inputs,
+                &mut counts,
+                &mut summaries,
+            );
+            for k in 0..c.line.len() {
+                if c.time_ms[k] != NO_TIME {
+                    buckets.add(
+                        c.time_ms[k],
+                        c.discharge_m3s[k],
+                        c.low_m3s[k],
+                        c.high_m3s[k],
+                        !c.flag[k].counted(),
+                    );
+                }
+            }
+            writer.write(&c)?;
+            bar.inc(0);
+        }
+        Ok(())
+    })();
+    if let Err(e) = result {
+        writer.abandon();
+        return Err(e.context(format!("writing {}", a.output.display())));
+    }
+    writer
+        .finish()
+        .with_context(|| format!("finishing {}", a.output.display()))?;
+    bar.finish_and_clear();
+    let rows_out = counts.per_flag.iter().sum::<usize>();
+    debug_assert_eq!(rows_out, n, "every row is written once");
+
+    // 6. summaries, plot, provenance
+    let daily = summaries.daily(&inputs);
+    let monthly = summaries.monthly(&inputs);
+    if let Some(p) = &a.daily {
+        write_summary(p, "date", &daily).with_context(|| format!("writing {}", p.display()))?;
+    }
+    if let Some(p) = &a.monthly {
+        write_summary(p, "month", &monthly).with_context(|| format!("writing {}", p.display()))?;
+    }
+    if let (Some(p), Some(fmt)) = (&a.plot, plot_format) {
+        let offset = s.zone.offset_at_utc(t_min);
+        let clock = format!(
+            "UTC{}{:02}:{:02}",
+            if offset < 0 { '-' } else { '+' },
+            offset.abs() / 3600,
+            (offset.abs() % 3600) / 60
+        );
+        let bytes = hydrograph(&buckets, &format!("{}: discharge", station.name), &clock, offset, fmt)?;
+        write_atomic(p, &bytes)?;
+    }
+    let flag_counts: serde_json::Map<String, serde_json::Value> = Flag::ALL
+        .iter()
+        .zip(counts.per_flag)
+        .map(|(f, c)| (f.as_str().to_string(), json!(c)))
+        .collect();
+    let time_notes = time_note_lines(&notes, &raw.lines);
+    let provenance = json!({
+        "flumerate_version": env!("CARGO_PKG_VERSION"),
+        "station": { "path": a.station.display().to_string(), "sha256": hash_file(&a.station)?, "name": station.name },
+        "logger": { "path": a.logger.display().to_string(), "sha256": raw.sha256, "bytes": size },
+        "settings": {
+            "time_formats": s.read.formats.iter().map(|f| f.as_str()).collect::<Vec<_>>(),
+            "timezone": s.zone_text,
+            "daylight_saving_rule": "nonexistent local times: no time, flag missing; repeated local times: summer time until the clock steps back within the repeated hour, standard time after",
+            "stage_unit": s.stage_unit,
+            "separator": (s.read.separator as char).to_string(),
+            "decimal_comma": s.read.decimal_comma,
+            "missing_values": s.read.missing,
+            "sorted_by_time": a.sort,
+            "submerged_estimate": a.submerged_estimate,
+        },
+        "corrections": {
+            "gauge_zero": { "zero": s.zero, "unit": s.stage_unit, "zero_m": conv.zero_m, "rule": "head = stage - zero" },
+            "drift": a.visits.as_ref().map(|p| json!({
+                "visits_file": p.display().to_string(),
+                "visits_sha256": hash_file(p).ok(),
+                "rule": "staff minus logger at each visit, linear in time between visits, constant outside",
+                "visits": drift_record.iter().map(|d| json!({
+                    "time_utc_ms": d.time_ms,
+                    "staff_head_m": d.staff_head_m,
+                    "logger_head_m": d.logger_head_m,
+                    "drift_m": d.drift_m(),
+                })).collect::<Vec<_>>(),
+            })),
+            "barometric": s.pressure_unit.as_ref().map(|u| json!({
+                "baro_file": a.baro.as_ref().map(|p| p.display().to_string()),
+                "baro_sha256": a.baro.as_ref().and_then(|p| hash_file(p).ok()),
+                "pressure_unit": u,
+                "rule": "depth = (p_logger - p_baro) / (rho(T) g), baro interpolated linearly in time, rho by Kell (1975)",
+                "water_temperature_c": s.water_temperature,
+                "rows_without_baro": counts.no_baro,
+                "rows_with_given_temperature": counts.temperature_fallback,
+            })),
+        },
+        "rating": {
+            "dense_table_max_relative_error": table.max_relative_error,
+            "dense_table_top_m": table.top_m(),
+            "rows_above_table_computed_exactly": counts.above_table,
+            "rows_without_discharge": counts.unrated_lines,
+            "rating_equation_exponent": exponent,
+        },
+        "rows": {
+            "input_rows": n,
+            "output_rows": rows_out,
+            "blank_lines": raw.blank_lines,
+            "per_flag": flag_counts,
+            "unreadable": raw.unreadable.iter().map(|(l, w)| json!({"line": l, "problem": w})).collect::<Vec<_>>(),
+            "empty_stage_fields": raw.empty_fields.first().copied().unwrap_or(0),
+            "sentinel_stage_fields": raw.sentinel_fields.first().copied().unwrap_or(0),
+            "backward_time_steps": backwards,
+            "duplicate_times": duplicates,
+            "time_notes": time_notes,
+            "submerged_estimated": counts.submerged_estimated,
+            "submerged_not_estimated": counts.submerged_not_estimated,
+        },
+        "nominal_interval_s": interval_s,
+        "cautions": CAUTIONS,
+    });
+    let prov_path = a
+        .provenance
+        .clone()
+        .unwrap_or_else(|| PathBuf::from(format!("{}.provenance.json", a.output.display())));
+    let mut prov_bytes = serde_json::to_vec_pretty(&provenance)?;
+    prov_bytes.push(b'\n');
+    write_atomic(&prov_path, &prov_bytes)?;
+    let _ = temp_path;
+
+    // 7. the report
+    let mut r = String::new();
+    r.push_str(&format!(
+        "flumerate convert: {} → {}\n",
+        a.logger.display(),
+        a.output.display()
+    ));
+    r.push_str(&format!("station: {} ({})\n", station.name, a.station.display()));
+    r.push_str(&format!(
+        "rows: {n} in, {rows_out} out; {} blank line(s) skipped; nominal interval {} s\n",
+        raw.blank_lines.len(),
+        interval_s
+    ));
+    r.push_str("flags: ");
+    r.push_str(
+        &Flag::ALL
+            .iter()
+            .zip(counts.per_flag)
+            .map(|(f, c)| format!("{} {c}", f.as_str()))
+            .collect::<Vec<_>>()
+            .join(", "),
+    );
+    r.push('\n');
+    if !raw.unreadable.is_empty() {
+        let ls: Vec<u32> = raw.unreadable.iter().map(|u| u.0).collect();
+        r.push_str(&format!(
+            "unreadable rows (flag missing), lines: {}\n",
+            lines_text(&ls, 20)
+        ));
+    }
+    if backwards > 0 || duplicates > 0 {
+        r.push_str(&format!(
+            "timestamps: {backwards} backward step(s), {duplicates} duplicate(s){}\n",
+            if a.sort {
+                "; rows written sorted by time"
+            } else {
+                "; rows written in input order (--sort to sort)"
+            }
+        ));
+    }
+    for (what, ls) in &time_notes {
+        r.push_str(&format!(
+            "times {what}: {} row(s), lines {}\n",
+            ls.len(),
+            lines_text(ls, 10)
+        ));
+    }
+    r.push_str(&format!("gauge zero: head = stage − {} {}\n", s.zero, s.stage_unit));
+    if counts.no_baro > 0 {
+        r.push_str(&format!(
+            "rows without barometric pressure within reach (flag missing): {}\n",
+            counts.no_baro
+        ));
+    }
+    if counts.temperature_fallback > 0 {
+        r.push_str(&format!(
+            "rows without a logged temperature (the given {} °C used): {}\n",
+            s.water_temperature, counts.temperature_fallback
+        ));
+    }
+    if !drift_record.is_empty() {
+        for d in &drift_record {
+            let when = chrono::DateTime::from_timestamp_millis(d.time_ms)
+                .map_or_else(|| d.time_ms.to_string(), |t| t.format("%Y-%m-%d %H:%M UTC").to_string());
+            r.push_str(&format!(
+                "drift at visit {when}: {}\n",
+                d.drift_m().map_or(
+                    "logger had no reading near the visit: visit not used".to_string(),
+                    |v| format!(
+                        "staff − logger = {:+.1} mm, applied linearly between visits",
+                        v * 1000.0
+                    )
+                )
+            ));
+        }
+    }
+    if counts.submerged_not_estimated + counts.submerged_estimated > 0 {
+        r.push_str(&format!(
+            "submerged rows: {} with the drowned-flow estimate (Villemonte 1947, an estimate), {} left at the free-flow rating (reads high)\n",
+            counts.submerged_estimated, counts.submerged_not_estimated
+        ));
+    }
+    let total: f64 = daily.iter().map(|d| d.volume_m3).sum();
+    r.push_str(&format!(
+        "volume of rows flagged ok or dry: {} m³ over {} day(s)\n",
+        sig(total, 6),
+        daily.len()
+    ));
+    r.push_str(&format!("provenance: {}\n\n", prov_path.display()));
+    r.push_str(&wrap(CAUTIONS, 100));
+    r.push('\n');
+    emit(r.as_bytes(), None)?;
+    let flagged = counts.per_flag[..4].iter().sum::<usize>();
+    Ok(if a.strict && flagged > 0 {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
+}

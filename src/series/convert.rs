@@ -1,0 +1,524 @@
+//! From read rows to discharge with a band and a flag per row, plus daily and monthly summaries.
+//!
+//! Per row: stage (or pressure minus barometric pressure, turned into depth) → head = stage − zero
+//! → plus the drift correction → rating (dense table, or the exact model above it) → 95 % band
+//! from the uncertainty inputs → one flag, most severe first: `missing`, `submerged`,
+//! `above-range`, `below-range`, `dry`, `ok` (design.md).
+//!
+//! Summaries count the rows flagged `ok` or `dry`; each stands for the nominal logging interval
+//! (the median step between readings). Other rows are counted as flagged and add neither volume
+//! nor uncertainty. Volume uncertainties keep systematic parts (coefficient, width, gauge zero)
+//! fully correlated and reading noise independent ([`crate::uncertainty::series`]).
+
+use std::collections::BTreeMap;
+
+use super::correct::{depth_from_pressure_m, drift_at_usable, DriftPoint, TimeSeries};
+use super::dense::{DenseRating, RatedHead};
+use super::time::{civil_from_days, date_string, wall_day, TimeNote, NO_TIME};
+use crate::rating::RatingModel;
+use crate::station::HeadRange;
+use crate::tailwater::{submerged_discharge_estimate_m3s, Tailwater};
+use crate::uncertainty::{GumModel, Inputs, PeriodAccumulator, SeriesReading, COVERAGE_FACTOR};
+
+/// One flag per row, most severe first.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Flag {
+    /// No usable time or head.
+    Missing,
+    /// The tailwater drowns the control: the rating reads high.
+    Submerged,
+    /// Head above the station's range: computed by the model beyond the rated range.
+    AboveRange,
+    /// Head above the crest but below the station's range.
+    BelowRange,
+    /// Head at or below the crest: no flow over the control.
+    Dry,
+    /// Within everything.
+    Ok,
+}
+
+impl Flag {
+    /// All flags, most severe first.
+    pub const ALL: [Flag; 6] = [
+        Flag::Missing,
+        Flag::Submerged,
+        Flag::AboveRange,
+        Flag::BelowRange,
+        Flag::Dry,
+        Flag::Ok,
+    ];
+
+    /// The word written to the output.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Flag::Missing => "missing",
+            Flag::Submerged => "submerged",
+            Flag::AboveRange => "above-range",
+            Flag::BelowRange => "below-range",
+            Flag::Dry => "dry",
+            Flag::Ok => "ok",
+        }
+    }
+
+    /// Whether the row counts in volumes and means.
+    pub fn counted(self) -> bool {
+        matches!(self, Flag::Ok | Flag::Dry)
+    }
+}
+
+/// Where the head comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StageSource {
+    /// A logged stage in some unit.
+    Level {
+        /// Metres per logged unit.
+        metres_per_unit: f64,
+    },
+    /// A logged absolute pressure, compensated with a barometric series.
+    Pressure {
+        /// Pascals per logged unit.
+        pascals_per_unit: f64,
+        /// The barometric series (Pa).
+        baro_pa: TimeSeries,
+        /// Longest gap (ms) across which the barometric series is interpolated.
+        baro_max_gap_ms: i64,
+        /// Water temperature (°C) used where no temperature is logged.
+        water_temperature_c: f64,
+        /// Value-column index of a logged temperature (°C), if any.
+        temperature_column: Option<usize>,
+    },
+}
+
+/// Everything the conversion needs besides the rows.
+#[derive(Debug, Clone)]
+pub struct Conversion<'a> {
+    /// The model (for values above the table and the drowned-flow estimate).
+    pub gum: &'a GumModel,
+    /// The dense table.
+    pub table: &'a DenseRating,
+    /// The station's head range.
+    pub range: HeadRange,
+    /// Stage source.
+    pub stage: StageSource,
+    /// Logger stage (m) with the water level with the crest.
+    pub zero_m: f64,
+    /// Usable drift points (UTC ms, staff − logger m), sorted.
+    pub drift: Vec<(i64, f64)>,
+    /// A logged tailwater: value-column index, metres per unit, logger reading at crest level.
+    pub tailwater_column: Option<(usize, f64, f64)>,
+    /// The tailwater channel, for the tailwater velocity head (none for a table).
+    pub tailwater: Option<&'a Tailwater>,
+    /// Replace the discharge of drowned rows by the drowned-flow estimate where it applies.
+    pub submerged_estimate: bool,
+    /// Exponent n of the rating equation, for the drowned-flow estimate.
+    pub exponent: f64,
+    /// Seconds each counted reading stands for.
+    pub interval_s: f64,
+    /// Gravity (m/s²).
+    pub gravity_m_s2: f64,
+}
+
+/// The converted rows of one output chunk (columns).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Chunk {
+    /// UTC ms, [`NO_TIME`] where unknown.
+    pub time_ms: Vec<i64>,
+    /// Stage (m), NaN where unknown.
+    pub stage_m: Vec<f64>,
+    /// Corrected head above the crest (m).
+    pub head_m: Vec<f64>,
+    /// Discharge (m³/s).
+    pub discharge_m3s: Vec<f64>,
+    /// Lower end of the 95 % band.
+    pub low_m3s: Vec<f64>,
+    /// Upper end of the 95 % band.
+    pub high_m3s: Vec<f64>,
+    /// Flag.
+    pub flag: Vec<Flag>,
+    /// Source line.
+    pub line: Vec<u32>,
+}
+
+/// Counts for the report.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Counts {
+    /// Rows per flag, in [`Flag::ALL`] order.
+    pub per_flag: [usize; 6],
+    /// Drowned rows whose discharge was replaced by the estimate.
+    pub submerged_estimated: usize,
+    /// Drowned rows for which no estimate applies (discharge left as the free-flow rating).
+    pub submerged_not_estimated: usize,
+    /// Rows above the dense table, computed exactly.
+    pub above_table: usize,
+    /// Rows where the barometric series did not reach.
+    pub no_baro: usize,
+    /// Rows where the logged temperature was missing and the given one was used.
+    pub temperature_fallback: usize,
+    /// Rows where the model had no discharge (listed by line).
+    pub unrated_lines: Vec<u32>,
+}
+
+/// Running statistics of one summary period.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+struct Acc {
+    rows: usize,
+    counted: usize,
+    sum_q: f64,
+    min_q: f64,
+    max_q: f64,
+    period: PeriodAccumulator,
+}
+
+/// One summary row.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PeriodRow {
+    /// `YYYY-MM-DD` or `YYYY-MM` on the local clock.
+    pub label: String,
+    /// Rows in the period.
+    pub rows: usize,
+    /// Rows counted (`ok` or `dry`).
+    pub rows_counted: usize,
+    /// Mean discharge over counted rows (m³/s).
+    pub mean_m3s: f64,
+    /// Smallest counted discharge (m³/s).
+    pub min_m3s: f64,
+    /// Largest counted discharge (m³/s).
+    pub max_m3s: f64,
+    /// Volume of the counted rows (m³).
+    pub volume_m3: f64,
+    /// Expanded (k = 2) uncertainty of the volume, systematic and random combined (m³).
+    pub volume_u95_m3: f64,
+    /// Standard uncertainty from the systematic inputs (m³).
+    pub volume_u_systematic_m3: f64,
+    /// Standard uncertainty from reading noise (m³).
+    pub volume_u_random_m3: f64,
+    /// Hours covered by counted rows.
+    pub covered_h: f64,
+}
+
+/// Daily and monthly summaries.
+#[derive(Debug, Clone, Default)]
+pub struct Summaries {
+    days: BTreeMap<i64, Acc>,
+    months: BTreeMap<(i64, u32), Acc>,
+}
+
+impl Summaries {
+    fn add(&mut self, day: i64, flag: Flag, q: f64, r: Option<&SeriesReading>) {
+        let (y, m, _) = civil_from_days(day);
+        for acc in [
+            self.days.entry(day).or_default(),
+            self.months.entry((y, m)).or_default(),
+        ] {
+            if acc.rows == 0 {
+                acc.min_q = f64::INFINITY;
+                acc.max_q = f64::NEG_INFINITY;
+            }
+            acc.rows += 1;
+            if flag.counted() {
+                acc.counted += 1;
+                acc.sum_q += q;
+                acc.min_q = acc.min_q.min(q);
+                acc.max_q = acc.max_q.max(q);
+            }
+            if let Some(r) = r {
+                acc.period.push(r);
+            }
+        }
+    }
+
+    fn rows<K: Ord + Copy>(map: &BTreeMap<K, Acc>, label: impl Fn(K) -> String, inputs: &Inputs) -> Vec<PeriodRow> {
+        map.iter()
+            .map(|(k, a)| {
+                let p = a.period.finish(inputs);
+                let sys = (p.u_coefficient_m3.powi(2) + p.u_dimension_m3.powi(2) + p.u_zero_m3.powi(2)).sqrt();
+                let counted = a.counted > 0;
+                PeriodRow {
+                    label: label(*k),
+                    rows: a.rows,
+                    rows_counted: a.counted,
+                    mean_m3s: if counted { a.sum_q / a.counted as f64 } else { f64::NAN },
+                    min_m3s: if counted { a.min_q } else { f64::NAN },
+                    max_m3s: if counted { a.max_q } else { f64::NAN },
+                    volume_m3: p.volume_m3,
+                    volume_u95_m3: p.expanded_m3(),
+                    volume_u_systematic_m3: sys,
+                    volume_u_random_m3: p.u_random_m3,
+                    covered_h: p.covered_s / 3600.0,
+                }
+            })
+            .collect()
+    }
+
+    /// One row per local calendar day.
+    pub fn daily(&self, inputs: &Inputs) -> Vec<PeriodRow> {
+        Self::rows(&self.days, date_string, inputs)
+    }
+
+    /// One row per local calendar month.
+    pub fn monthly(&self, inputs: &Inputs) -> Vec<PeriodRow> {
+        Self::rows(&self.months, |(y, m)| format!("{y:04}-{m:02}"), inputs)
+    }
+}
+
+impl Conversion<'_> {
+    /// Stage (m) of row `i` at instant `t`: the logged stage, or the depth from pressure minus the
+    /// barometric pressure; NaN when it cannot be had. Returns also whether the barometric series
+    /// was missing and whether the temperature fell back to the given value.
+    pub fn stage_of(&self, t: i64, values: &[Vec<f64>], i: usize) -> (f64, bool, bool) {
+        let raw = values[0][i];
+        match &self.stage {
+            StageSource::Level { metres_per_unit } => (raw * metres_per_unit, false, false),
+            StageSource::Pressure {
+                pascals_per_unit,
+                baro_pa,
+                baro_max_gap_ms,
+                water_temperature_c,
+                temperature_column,
+            } => {
+                let baro = if t == NO_TIME {
+                    None
+                } else {
+                    baro_pa.at(t, *baro_max_gap_ms)
+                };
+                match baro {
+                    None => (f64::NAN, raw.is_finite() && t != NO_TIME, false),
+                    Some(b) => {
+                        let (temp, fallback) = match temperature_column.map(|k| values[k][i]) {
+                            Some(v) if v.is_finite() => (v, false),
+                            Some(_) => (*water_temperature_c, true),
+                            None => (*water_temperature_c, false),
+                        };
+                        (
+                            depth_from_pressure_m(raw * pascals_per_unit, b, temp, self.gravity_m_s2),
+                            false,
+                            fallback,
+                        )
+                    }
+                }
+            }
+        }
+    }
+
+    fn rated(&self, head: f64, counts: &mut Counts, line: u32) -> Option<RatedHead> {
+        if let Some(r) = self.table.eval(head) {
+            return Some(r);
+        }
+        counts.above_table += 1;
+        let g = self.gum.point(head).ok();
+        let p = self.gum.model().point(head).ok();
+        match (g, p) {
+            (Some(g), Some(p)) => Some(RatedHead {
+                discharge_m3s: g.discharge_m3s,
+                dq_dcoefficient: g.dq_dcoefficient,
+                dq_ddimension: g.dq_ddimension,
+                dq_dhead: g.dq_dhead,
+                energy_head_m: p.energy_head_m,
+                modular_limit: self
+                    .table
+                    .eval(self.table.top_m())
+                    .map_or(f64::NAN, |r| r.modular_limit),
+            }),
+            _ => {
+                counts.unrated_lines.push(line);
+                None
+            }
+        }
+    }
+
+    /// Converts rows `order` (indices into the arrays) into a chunk, updating counts and summaries.
+    #[allow(clippy::too_many_arguments)]
+    pub fn convert_rows(
+        &self,
+        order: &[usize],
+        utc: &[i64],
+        days: &[i64],
+        values: &[Vec<f64>],
+        lines: &[u32],
+        inputs: &Inputs,
+        counts: &mut Counts,
+        summaries: &mut Summaries,
+    ) -> Chunk {
+        let n = order.len();
+        let mut c = Chunk {
+            time_ms: Vec::with_capacity(n),
+            stage_m: Vec::with_capacity(n),
+            head_m: Vec::with_capacity(n),
+            discharge_m3s: Vec::with_capacity(n),
+            low_m3s: Vec::with_capacity(n),
+            high_m3s: Vec::with_capacity(n),
+            flag: Vec::with_capacity(n),
+            line: Vec::with_capacity(n),
+        };
+        let model: &RatingModel = self.gum.model();
+        for &i in order {
+            let t = utc[i];
+            let (stage, no_baro, fallback) = self.stage_of(t, values, i);
+            counts.no_baro += usize::from(no_baro);
+            counts.temperature_fallback += usize::from(fallback);
+            let drift = if t == NO_TIME {
+                0.0
+            } else {
+                drift_at_usable(&self.drift, t)
+            };
+            let head = stage - self.zero_m + drift;
+            let (mut flag, mut q, mut band) = (Flag::Missing, f64::NAN, (f64::NAN, f64::NAN));
+            let mut reading: Option<SeriesReading> = None;
+            if t != NO_TIME && head.is_finite() {
+                if head <= 0.0 {
+                    flag = Flag::Dry;
+                    q = 0.0;
+                    band = (0.0, 0.0);
+                    reading = Some(SeriesReading {
+                        discharge_m3s: 0.0,
+                        dq_dcoefficient: 0.0,
+                        dq_ddimension: 0.0,
+                        dq_dhead: 0.0,
+                        duration_s: self.interval_s,
+                        included: true,
+                    });
+                } else if let Some(r) = self.rated(head, counts, lines[i]) {
+                    q = r.discharge_m3s;
+                    let u = ((r.dq_dcoefficient * inputs.coefficient.standard).powi(2)
+                        + (r.dq_ddimension * inputs.dimension.standard).powi(2)
+                        + (r.dq_dhead * inputs.head_standard_m()).powi(2))
+                    .sqrt();
+                    band = ((q - COVERAGE_FACTOR * u).max(0.0), q + COVERAGE_FACTOR * u);
+                    flag = if head > self.range.max_head_m {
+                        Flag::AboveRange
+                    } else if head < self.range.min_head_m {
+                        Flag::BelowRange
+                    } else {
+                        Flag::Ok
+                    };
+                    if let Some((k, per, zero)) = self.tailwater_column {
+                        let tw = values[k][i];
+                        if tw.is_finite() {
+                            let level = tw * per - zero;
+                            let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
+                            let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
+                            if s > r.modular_limit {
+                                flag = Flag::Submerged;
+                                let est = if self.submerged_estimate {
+                                    submerged_discharge_estimate_m3s(model, q, s, r.modular_limit, self.exponent)
+                                } else {
+                                    None
+                                };
+                                match est {
+                                    Some(e) => {
+                                        let ratio = e / q;
+                                        band = (band.0 * ratio, band.1 * ratio);
+                                        q = e;
+                                        counts.submerged_estimated += 1;
+                                    }
+                                    None => counts.submerged_not_estimated += 1,
+                                }
+                            }
+                        }
+                    }
+                    reading = Some(SeriesReading {
+                        discharge_m3s: q,
+                        dq_dcoefficient: r.dq_dcoefficient,
+                        dq_ddimension: r.dq_ddimension,
+                        dq_dhead: r.dq_dhead,
+                        duration_s: self.interval_s,
+                        included: flag.counted(),
+                    });
+                }
+            }
+            counts.per_flag[Flag::ALL.iter().position(|f| *f == flag).unwrap_or(0)] += 1;
+            if t != NO_TIME {
+                summaries.add(days[i], flag, q, reading.as_ref().filter(|r| r.included));
+            }
+            c.time_ms.push(t);
+            c.stage_m.push(stage);
+            c.head_m.push(head);
+            c.discharge_m3s.push(q);
+            c.low_m3s.push(band.0);
+            c.high_m3s.push(band.1);
+            c.flag.push(flag);
+            c.line.push(lines[i]);
+        }
+        c
+    }
+}
+
+/// Local calendar days of the rows, from their wall-clock times ([`NO_TIME`] stays so).
+pub fn local_days(wall: &[i64]) -> Vec<i64> {
+    wall.iter()
+        .map(|&w| if w == NO_TIME { NO_TIME } else { wall_day(w) })
+        .collect()
+}
+
+/// Backward steps and repeated times among the rows' instants.
+pub fn order_counts(utc: &[i64]) -> (usize, usize) {
+    let mut backwards = 0;
+    let mut last = NO_TIME;
+    let mut sorted = true;
+    let mut adjacent_dupes = 0;
+    for &t in utc.iter().filter(|t| **t != NO_TIME) {
+        if last != NO_TIME {
+            if t < last {
+                backwards += 1;
+                sorted = false;
+            } else if t == last {
+                adjacent_dupes += 1;
+            }
+        }
+        last = t;
+    }
+    if sorted {
+        return (0, adjacent_dupes);
+    }
+    let mut v: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
+    v.sort_unstable();
+    let dupes = v.windows(2).filter(|w| w[0] == w[1]).count();
+    (backwards, dupes)
+}
+
+/// The nominal logging interval (ms): the median of the positive steps between consecutive
+/// readings (at most 200 000 steps spread over the file are examined).
+pub fn nominal_interval_ms(utc: &[i64]) -> Option<i64> {
+    let valid: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
+    if valid.len() < 2 {
+        return None;
+    }
+    let stride = (valid.len() / 200_000).max(1);
+    let mut steps: Vec<i64> = (1..valid.len())
+        .step_by(stride)
+        .map(|i| valid[i] - valid[i - 1])
+        .filter(|d| *d > 0)
+        .collect();
+    if steps.is_empty() {
+        return None;
+    }
+    let mid = steps.len() / 2;
+    let (_, m, _) = steps.select_nth_unstable(mid);
+    Some(*m)
+}
+
+/// Drift points usable for correction: (time, staff − logger), sorted by time.
+pub fn usable_drift(points: &[DriftPoint]) -> Vec<(i64, f64)> {
+    let mut v: Vec<(i64, f64)> = points
+        .iter()
+        .filter_map(|p| p.drift_m().map(|d| (p.time_ms, d)))
+        .collect();
+    v.sort_by_key(|p| p.0);
+    v
+}
+
+/// Rows of the times: counts of each [`TimeNote`] with the lines of the notable ones.
+pub fn time_note_lines(notes: &[TimeNote], lines: &[u32]) -> BTreeMap<&'static str, Vec<u32>> {
+    let mut m: BTreeMap<&'static str, Vec<u32>> = BTreeMap::new();
+    for (n, l) in notes.iter().zip(lines) {
+        let key = match n {
+            TimeNote::Ok => continue,
+            TimeNote::Unparsed => "unparsed",
+            TimeNote::Nonexistent => "nonexistent (spring clock change)",
+            TimeNote::AmbiguousEarlier => "repeated hour, taken as summer time",
+            TimeNote::AmbiguousLater => "repeated hour, taken as standard time",
+        };
+        m.entry(key).or_default().push(*l);
+    }
+    m
+}

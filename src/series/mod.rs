@@ -1,0 +1,7 @@
+//! Logger series: reading exports, correcting heads, converting to discharge, summarising.
+pub mod convert;
+pub mod correct;
+pub mod dense;
+pub mod output;
+pub mod read;
+pub mod time;

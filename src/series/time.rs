@@ -1,0 +1,476 @@
+//! Logger timestamps: parsing local wall-clock times and turning them into instants.
+//!
+//! Times are parsed as naive local wall-clock times (milliseconds since 1970-01-01 00:00 on the
+//! local clock), then mapped to UTC with the station's zone. Calendar arithmetic uses Howard
+//! Hinnant's `days_from_civil` algorithm ("chrono-Compatible Low-Level Date Algorithms", 2013).
+//!
+//! **Daylight-saving rule** (documented in the README): a local time that does not exist (the
+//! spring-forward gap) is never guessed: its row gets no time and the flag `missing`. A local
+//! time that occurs twice (the fall-back hour) is taken as the earlier instant (summer time) until
+//! the logger's clock is seen to step back within that repeated hour; from then until the repeated
+//! hour ends it is taken as the later instant (standard time). Every row resolved this way is
+//! counted and listed in the provenance. Loggers kept on standard time all year avoid the issue:
+//! give a fixed offset such as `+01:00`.
+
+use chrono::{LocalResult, NaiveDate, NaiveDateTime, TimeZone};
+
+const MS_PER_DAY: i64 = 86_400_000;
+const MS_PER_HOUR: i64 = 3_600_000;
+
+/// Days from 1970-01-01 to the civil date (proleptic Gregorian), Hinnant's algorithm.
+pub fn days_from_civil(y: i64, m: u32, d: u32) -> i64 {
+    let y = if m <= 2 { y - 1 } else { y };
+    let era = if y >= 0 { y } else { y - 399 } / 400;
+    let yoe = y - era * 400;
+    let m = m as i64;
+    let doy = (153 * (if m > 2 { m - 3 } else { m + 9 }) + 2) / 5 + d as i64 - 1;
+    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+    era * 146_097 + doe - 719_468
+}
+
+/// The civil date (year, month, day) of a day count from 1970-01-01, Hinnant's algorithm.
+pub fn civil_from_days(z: i64) -> (i64, u32, u32) {
+    let z = z + 719_468;
+    let era = if z >= 0 { z } else { z - 146_096 } / 146_097;
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
+    (yoe + era * 400 + i64::from(m <= 2), m, d)
+}
+
+fn days_in_month(y: i64, m: u32) -> u32 {
+    match m {
+        1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
+        4 | 6 | 9 | 11 => 30,
+        _ if (y % 4 == 0 && y % 100 != 0) || y % 400 == 0 => 29,
+        _ => 28,
+    }
+}
+
+/// `YYYY-MM-DD` of a day count.
+pub fn date_string(day: i64) -> String {
+    let (y, m, d) = civil_from_days(day);
+    format!("{y:04}-{m:02}-{d:02}")
+}
+
+/// Local wall-clock milliseconds of a date and time.
+fn wall_ms(y: i64, mo: u32, d: u32, h: u32, mi: u32, s: u32, ms: u32) -> Option<i64> {
+    if !(1..=12).contains(&mo) || d == 0 || d > days_in_month(y, mo) || h > 23 || mi > 59 || s > 60 {
+        return None;
+    }
+    Some(days_from_civil(y, mo, d) * MS_PER_DAY + ((h as i64 * 60 + mi as i64) * 60 + s as i64) * 1000 + ms as i64)
+}
+
+/// One piece of a time format.
+#[derive(Debug, Clone, PartialEq)]
+enum Tok {
+    Year4,
+    Year2,
+    Month,
+    Day,
+    Hour,
+    Minute,
+    Second,
+    /// `%.f`: optional fraction of a second, with its dot
+    Fraction,
+    Lit(u8),
+}
+
+/// A strftime-style time format. `%Y %y %m %d %H %M %S %.f` and literal characters are parsed by
+/// a fast path; any other specifier hands the whole format to chrono's parser.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TimeFormat {
+    text: String,
+    fast: Option<Vec<Tok>>,
+}
+
+impl TimeFormat {
+    /// Compiles a format such as `%Y-%m-%d %H:%M:%S`.
+    pub fn new(text: &str) -> Self {
+        let mut toks = Vec::new();
+        let b = text.as_bytes();
+        let mut i = 0;
+        let mut fast = true;
+        while i < b.len() {
+            if b[i] == b'%' && i + 1 < b.len() {
+                let t = match b[i + 1] {
+                    b'Y' => Tok::Year4,
+                    b'y' => Tok::Year2,
+                    b'm' => Tok::Month,
+                    b'd' => Tok::Day,
+                    b'H' => Tok::Hour,
+                    b'M' => Tok::Minute,
+                    b'S' => Tok::Second,
+                    b'.' if b.get(i + 2) == Some(&b'f') => {
+                        i += 1;
+                        Tok::Fraction
+                    }
+                    b'%' => Tok::Lit(b'%'),
+                    _ => {
+                        fast = false;
+                        break;
+                    }
+                };
+                toks.push(t);
+                i += 2;
+            } else {
+                toks.push(Tok::Lit(b[i]));
+                i += 1;
+            }
+        }
+        Self {
+            text: text.to_string(),
+            fast: fast.then_some(toks),
+        }
+    }
+
+    /// The format as written.
+    pub fn as_str(&self) -> &str {
+        &self.text
+    }
+
+    /// Parses `s` (surrounding white space ignored) to local wall-clock milliseconds.
+    pub fn parse(&self, s: &str) -> Option<i64> {
+        let s = s.trim();
+        match &self.fast {
+            Some(toks) => parse_fast(toks, s.as_bytes()),
+            None => {
+                let dt = NaiveDateTime::parse_from_str(s, &self.text).ok().or_else(|| {
+                    NaiveDate::parse_from_str(s, &self.text)
+                        .ok()
+                        .and_then(|d| d.and_hms_opt(0, 0, 0))
+                })?;
+                Some(dt.and_utc().timestamp_millis())
+            }
+        }
+    }
+}
+
+fn digits(b: &[u8], pos: &mut usize, min: usize, max: usize) -> Option<u32> {
+    let start = *pos;
+    let mut v: u32 = 0;
+    while *pos < b.len() && *pos - start < max && b[*pos].is_ascii_digit() {
+        v = v * 10 + u32::from(b[*pos] - b'0');
+        *pos += 1;
+    }
+    (*pos - start >= min).then_some(v)
+}
+
+fn parse_fast(toks: &[Tok], b: &[u8]) -> Option<i64> {
+    let (mut y, mut mo, mut d, mut h, mut mi, mut s, mut ms) = (1970i64, 1u32, 1u32, 0u32, 0u32, 0u32, 0u32);
+    let mut p = 0;
+    for t in toks {
+        match t {
+            Tok::Year4 => y = i64::from(digits(b, &mut p, 4, 4)?),
+            Tok::Year2 => {
+                // POSIX strptime: 69–99 are 1969–1999, 00–68 are 2000–2068
+                let v = i64::from(digits(b, &mut p, 2, 2)?);
+                y = if v >= 69 { 1900 + v } else { 2000 + v };
+            }
+            Tok::Month => mo = digits(b, &mut p, 1, 2)?,
+            Tok::Day => d = digits(b, &mut p, 1, 2)?,
+            Tok::Hour => h = digits(b, &mut p, 1, 2)?,
+            Tok::Minute => mi = digits(b, &mut p, 1, 2)?,
+            Tok::Second => s = digits(b, &mut p, 1, 2)?,
+            Tok::Fraction => {
+                if p < b.len() && b[p] == b'.' {
+                    p += 1;
+                    let start = p;
+                    let mut frac = 0u32;
+                    while p < b.len() && b[p].is_ascii_digit() {
+                        if p - start < 3 {
+                            frac = frac * 10 + u32::from(b[p] - b'0');
+                        }
+                        p += 1;
+                    }
+                    if p == start {
+                        return None;
+                    }
+                    for _ in (p - start).min(3)..3 {
+                        frac *= 10;
+                    }
+                    ms = frac;
+                }
+            }
+            Tok::Lit(c) => {
+                if p < b.len() && b[p] == *c {
+                    p += 1;
+                } else {
+                    return None;
+                }
+            }
+        }
+    }
+    if p != b.len() {
+        return None;
+    }
+    wall_ms(y, mo, d, h, mi, s, ms)
+}
+
+/// Parses with the first format that fits.
+pub fn parse_any(formats: &[TimeFormat], s: &str) -> Option<i64> {
+    formats.iter().find_map(|f| f.parse(s))
+}
+
+/// A time zone: a fixed offset or an IANA zone (tz database compiled in via chrono-tz).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Zone {
+    /// Fixed offset east of UTC, in seconds.
+    Fixed(i32),
+    /// An IANA zone with its daylight-saving rules.
+    Iana(chrono_tz::Tz),
+}
+
+impl Zone {
+    /// Parses `UTC`, `Z`, `+01:00`, `-0530`, `UTC+02:00` or an IANA name such as `Europe/Berlin`.
+    pub fn parse(s: &str) -> Result<Self, String> {
+        let t = s.trim();
+        if t.eq_ignore_ascii_case("utc") || t == "Z" {
+            return Ok(Zone::Fixed(0));
+        }
+        let off = t.strip_prefix("UTC").unwrap_or(t);
+        if let Some(sign) = off.chars().next().filter(|c| *c == '+' || *c == '-') {
+            let rest: String = off[1..].chars().filter(|c| *c != ':').collect();
+            let ok = rest.len() == 4 && rest.chars().all(|c| c.is_ascii_digit());
+            if !ok {
+                return Err(format!("offset \"{s}\" is not of the form +HH:MM"));
+            }
+            let (h, m): (i32, i32) = (rest[..2].parse().unwrap_or(99), rest[2..].parse().unwrap_or(99));
+            if h > 14 || m > 59 {
+                return Err(format!("offset \"{s}\" is out of range"));
+            }
+            let secs = (h * 3600 + m * 60) * if sign == '-' { -1 } else { 1 };
+            return Ok(Zone::Fixed(secs));
+        }
+        t.parse::<chrono_tz::Tz>().map(Zone::Iana).map_err(|_| {
+            format!(
+                "unknown time zone \"{s}\": give an IANA name such as Europe/Berlin, or a fixed offset such as +01:00"
+            )
+        })
+    }
+
+    /// A name polars understands for the output column, when there is one.
+    pub fn polars_name(&self) -> Option<String> {
+        match self {
+            Zone::Fixed(0) => Some("UTC".into()),
+            Zone::Fixed(secs) if secs % 3600 == 0 => {
+                // the Etc/GMT zones have the POSIX sign: Etc/GMT-1 is UTC+01:00
+                let h = -secs / 3600;
+                Some(if h > 0 {
+                    format!("Etc/GMT+{h}")
+                } else {
+                    format!("Etc/GMT{h}")
+                })
+            }
+            Zone::Fixed(_) => None,
+            Zone::Iana(tz) => Some(tz.name().to_string()),
+        }
+    }
+
+    /// The zone's offset (s) at a UTC instant (ms).
+    pub fn offset_at_utc(&self, utc_ms: i64) -> i32 {
+        use chrono::Offset;
+        match self {
+            Zone::Fixed(s) => *s,
+            Zone::Iana(tz) => {
+                let dt = chrono::DateTime::from_timestamp_millis(utc_ms)
+                    .unwrap_or_default()
+                    .naive_utc();
+                tz.offset_from_utc_datetime(&dt).fix().local_minus_utc()
+            }
+        }
+    }
+
+    fn resolve_exact(&self, wall_ms: i64) -> Resolved {
+        match self {
+            Zone::Fixed(s) => Resolved::Unique(wall_ms - i64::from(*s) * 1000),
+            Zone::Iana(tz) => {
+                let Some(naive) = chrono::DateTime::from_timestamp_millis(wall_ms).map(|d| d.naive_utc()) else {
+                    return Resolved::Nonexistent;
+                };
+                match tz.from_local_datetime(&naive) {
+                    LocalResult::Single(dt) => Resolved::Unique(dt.timestamp_millis()),
+                    LocalResult::Ambiguous(a, b) => Resolved::Ambiguous(a.timestamp_millis(), b.timestamp_millis()),
+                    LocalResult::None => Resolved::Nonexistent,
+                }
+            }
+        }
+    }
+}
+
+/// How one local time maps to instants.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Resolved {
+    /// One instant (UTC ms).
+    Unique(i64),
+    /// Two instants: earlier (summer time) and later (standard time).
+    Ambiguous(i64, i64),
+    /// The local time was skipped by a clock change.
+    Nonexistent,
+}
+
+/// What happened to a row's time.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TimeNote {
+    /// Parsed and unique.
+    Ok,
+    /// The text did not match any format.
+    Unparsed,
+    /// A local time skipped by the spring clock change.
+    Nonexistent,
+    /// A repeated local time taken as the earlier instant.
+    AmbiguousEarlier,
+    /// A repeated local time taken as the later instant.
+    AmbiguousLater,
+}
+
+/// Marks a missing time in the `i64` time arrays.
+pub const NO_TIME: i64 = i64::MIN;
+
+/// Maps local wall-clock times (ms, [`NO_TIME`] where unread) to UTC instants in file order with
+/// the daylight-saving rule of the module documentation. Local hours whose start and end map to
+/// the same offset are resolved once and reused, so long series cost little.
+pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
+    let mut out = Vec::with_capacity(wall.len());
+    let mut notes = Vec::with_capacity(wall.len());
+    let mut cached: Option<(i64, i64)> = None; // (local hour, offset ms) of an unambiguous hour
+    let mut prev_ambiguous: Option<i64> = None;
+    let mut second_pass = false;
+    for &w in wall {
+        if w == NO_TIME {
+            out.push(NO_TIME);
+            notes.push(TimeNote::Unparsed);
+            continue;
+        }
+        let hour = w.div_euclid(MS_PER_HOUR);
+        let resolved = match (zone, cached) {
+            (Zone::Fixed(s), _) => Resolved::Unique(w - i64::from(*s) * 1000),
+            (_, Some((h, off))) if h == hour => Resolved::Unique(w - off),
+            _ => {
+                let (h0, h1) = (hour * MS_PER_HOUR, hour * MS_PER_HOUR + MS_PER_HOUR - 1);
+                match (zone.resolve_exact(h0), zone.resolve_exact(h1)) {
+                    (Resolved::Unique(ua), Resolved::Unique(ub)) if h0 - ua == h1 - ub => {
+                        cached = Some((hour, h0 - ua));
+                        Resolved::Unique(w - (h0 - ua))
+                    }
+                    _ => zone.resolve_exact(w),
+                }
+            }
+        };
+        match resolved {
+            Resolved::Unique(t) => {
+                prev_ambiguous = None;
+                second_pass = false;
+                out.push(t);
+                notes.push(TimeNote::Ok);
+            }
+            Resolved::Nonexistent => {
+                out.push(NO_TIME);
+                notes.push(TimeNote::Nonexistent);
+            }
+            Resolved::Ambiguous(early, late) => {
+                if prev_ambiguous.is_some_and(|p| w < p) {
+                    second_pass = true;
+                }
+                prev_ambiguous = Some(w);
+                if second_pass {
+                    out.push(late);
+                    notes.push(TimeNote::AmbiguousLater);
+                } else {
+                    out.push(early);
+                    notes.push(TimeNote::AmbiguousEarlier);
+                }
+            }
+        }
+    }
+    (out, notes)
+}
+
+/// Local calendar day (days since 1970-01-01 on the local clock) of a wall-clock time.
+pub fn wall_day(wall_ms: i64) -> i64 {
+    wall_ms.div_euclid(MS_PER_DAY)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn civil_day_round_trip() {
+        // analytic: 2000-03-01 is day 11017; 1970-01-01 is day 0
+        assert_eq!(days_from_civil(1970, 1, 1), 0);
+        assert_eq!(days_from_civil(2000, 3, 1), 11_017);
+        for z in [-800_000, -1, 0, 59, 11_016, 19_000, 2_000_000] {
+            let (y, m, d) = civil_from_days(z);
+            assert_eq!(days_from_civil(y, m, d), z);
+        }
+    }
+
+    #[test]
+    fn fast_parser_matches_chrono() {
+        let f = TimeFormat::new("%Y-%m-%d %H:%M:%S");
+        let t = f.parse("2024-10-27 02:30:15").expect("parses");
+        let c = NaiveDateTime::parse_from_str("2024-10-27 02:30:15", "%Y-%m-%d %H:%M:%S").expect("chrono");
+        assert_eq!(t, c.and_utc().timestamp_millis());
+        assert_eq!(
+            TimeFormat::new("%d.%m.%Y %H:%M").parse("27.10.2024 02:30"),
+            Some(t - 15_000)
+        );
+        assert!(f.parse("2024-02-30 00:00:00").is_none(), "no 30 February");
+        assert!(f.parse("garbage").is_none());
+        assert!(f.parse("2024-10-27 02:30:15 extra").is_none());
+        let frac = TimeFormat::new("%Y-%m-%dT%H:%M:%S%.f");
+        assert_eq!(frac.parse("2024-10-27T02:30:15.25"), Some(t + 250));
+        assert_eq!(frac.parse("2024-10-27T02:30:15"), Some(t));
+        // a format the fast path does not know goes to chrono
+        assert_eq!(
+            TimeFormat::new("%b %d %Y %H:%M").parse("Oct 27 2024 02:30"),
+            Some(t - 15_000)
+        );
+    }
+
+    #[test]
+    fn zones_parse() {
+        assert_eq!(Zone::parse("+01:00"), Ok(Zone::Fixed(3600)));
+        assert_eq!(Zone::parse("UTC-05:30"), Ok(Zone::Fixed(-19_800)));
+        assert!(matches!(Zone::parse("Europe/Berlin"), Ok(Zone::Iana(_))));
+        assert!(Zone::parse("Mars/Olympus").is_err());
+        assert_eq!(Zone::Fixed(3600).polars_name().as_deref(), Some("Etc/GMT-1"));
+    }
+
+    #[test]
+    fn daylight_saving_gap_and_overlap_follow_the_rule() {
+        // Europe/Berlin (IANA tz database): 2024-03-31 02:00 → 03:00 (gap);
+        // 2024-10-27 03:00 CEST → 02:00 CET (02:00–02:59 occur twice)
+        let zone = Zone::parse("Europe/Berlin").expect("zone");
+        let f = TimeFormat::new("%Y-%m-%d %H:%M");
+        let wall: Vec<i64> = [
+            "2024-03-31 01:45",
+            "2024-03-31 02:15",
+            "2024-03-31 03:00",
+            "2024-10-27 02:00",
+            "2024-10-27 02:30",
+            "2024-10-27 02:00",
+            "2024-10-27 02:30",
+            "2024-10-27 03:00",
+        ]
+        .iter()
+        .map(|s| f.parse(s).expect("parses"))
+        .collect();
+        let (utc, notes) = resolve(&zone, &wall);
+        assert_eq!(notes[1], TimeNote::Nonexistent);
+        assert_eq!(utc[1], NO_TIME);
+        // 01:45 CET = 00:45 UTC; 03:00 CEST = 01:00 UTC
+        assert_eq!(utc[2] - utc[0], 15 * 60_000);
+        assert_eq!(notes[3], TimeNote::AmbiguousEarlier);
+        assert_eq!(notes[4], TimeNote::AmbiguousEarlier);
+        assert_eq!(notes[5], TimeNote::AmbiguousLater);
+        assert_eq!(notes[6], TimeNote::AmbiguousLater);
+        // 02:00 CEST = 00:00 UTC, 02:00 CET = 01:00 UTC, 03:00 CET = 02:00 UTC
+        assert_eq!(utc[5] - utc[3], 3_600_000);
+        assert_eq!(utc[7] - utc[6], 30 * 60_000);
+    }
+}
