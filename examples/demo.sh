@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
-# The flumerate demo: rates the invented demo stations of examples/README.md.
-# Run from the repository root:  bash examples/demo.sh
-# Writes out/ (ignored by git) and prints the canal flume's rating.
+# The flumerate demo on the invented scenario of examples/README.md: four weeks of the Ridgeway
+# canal flume's pressure logger converted to discharge (series, daily summary, hydrograph), then
+# the station checks, ratings and tailwater check behind it.
+# Run from the repository root:  bash examples/demo.sh      Writes out/ (ignored by git).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -9,15 +10,24 @@ cargo build --locked --quiet
 bin="${CARGO_TARGET_DIR:-target}/debug/flumerate"
 mkdir -p out
 
-echo "== 1. check the canal flume's station file and the limits of its method"
+echo "== 1. convert the canal flume's logger export to discharge (barometric compensation, drift"
+echo "      against three field visits, the October clock change, a gap, a spike, a failed reading)"
+"$bin" convert examples/ridgeway-logger.csv --station ratings/ridgeway-canal-flume.toml \
+    --baro examples/ridgeway-baro.csv --visits examples/ridgeway-visits.csv \
+    -o out/ridgeway-series.csv --daily out/ridgeway-daily.csv --monthly out/ridgeway-monthly.csv \
+    --plot out/ridgeway-hydrograph.png
+echo "   series: out/ridgeway-series.csv   daily: out/ridgeway-daily.csv   plot: out/ridgeway-hydrograph.png"
+
+echo
+echo "== 2. check the canal flume's station file and the limits of its method"
 "$bin" check ratings/ridgeway-canal-flume.toml
 
 echo
-echo "== 2. its rating table (text; CSV and JSON carry full precision)"
+echo "== 3. its rating table (text; CSV and JSON carry full precision)"
 "$bin" rate ratings/ridgeway-canal-flume.toml
 
 echo
-echo "== 3. every demo station rated to out/ (CSV, SI) and the weir also in US units"
+echo "== 4. every demo station rated to out/ (CSV, SI) and the weir also in US units"
 for station in ratings/*.toml; do
     name=$(basename "$station" .toml)
     "$bin" rate "$station" --format csv -o "out/$name.csv"
@@ -27,12 +37,12 @@ done
 echo "   out/alder-brook-weir-us.csv"
 
 echo
-echo "== 4. does the canal flume stay modular when the canal backs up? (exit 1 means: drowned somewhere)"
+echo "== 5. does the canal flume stay modular when the canal backs up? (exit 1 means: drowned somewhere)"
 code=0
 "$bin" tailwater ratings/ridgeway-canal-flume.toml --plot out/ridgeway-canal-flume-tailwater.png || code=$?
 [ "$code" -le 1 ] || exit "$code"   # 1 = drowned somewhere (expected here); 2 = an error
 echo "   chart: out/ridgeway-canal-flume-tailwater.png"
 
 echo
-echo "== 5. one cross-section by hand: critical depth and alternate depths"
+echo "== 6. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4
