@@ -13,6 +13,11 @@ fn main() -> PolarsResult<()> {
         .with_has_header(true)
         .try_into_reader_with_file_path(Some(path.into()))?
         .finish()?;
-    eprintln!("polars read {} rows x {} columns in {:.3} s", df.height(), df.width(), t.elapsed().as_secs_f64());
+    eprintln!(
+        "polars read {} rows x {} columns in {:.3} s",
+        df.height(),
+        df.width(),
+        t.elapsed().as_secs_f64()
+    );
     Ok(())
 }
