@@ -44,5 +44,9 @@ code=0
 echo "   chart: out/ridgeway-canal-flume-tailwater.png"
 
 echo
-echo "== 6. one cross-section by hand: critical depth and alternate depths"
+echo "== 6. the canal flume's field sheet for the gauge house (one printable page)"
+"$bin" sheet ratings/ridgeway-canal-flume.toml -o out/ridgeway-sheet.html
+
+echo
+echo "== 7. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4

@@ -8,6 +8,7 @@ mod integration {
     pub mod malformed;
     pub mod properties;
     pub mod references;
+    pub mod sheet;
     pub mod tailwater;
     pub mod uncertainty;
 }

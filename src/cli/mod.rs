@@ -6,6 +6,7 @@ mod convert;
 mod output;
 mod rate;
 mod section;
+mod sheet;
 mod tailwater;
 
 use std::path::PathBuf;
@@ -38,6 +39,8 @@ enum Command {
     Tailwater(tailwater::TailwaterArgs),
     /// Logger stage records to discharge with a 95 % band and a flag per row
     Convert(Box<convert::ConvertArgs>),
+    /// Printable one-page field sheet of the rating (HTML)
+    Sheet(sheet::SheetArgs),
 }
 
 /// Output unit system.
@@ -75,6 +78,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Check(a) => check::run(a),
         Command::Tailwater(a) => tailwater::run(a),
         Command::Convert(a) => convert::run(*a),
+        Command::Sheet(a) => sheet::run(a),
     }
 }
 

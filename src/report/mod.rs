@@ -2,6 +2,7 @@
 
 pub mod plot;
 pub mod rating;
+pub mod sheet;
 pub mod tailwater;
 
 /// The cautions printed with every rating (design.md, "Cautions shown to users").

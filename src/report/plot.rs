@@ -80,10 +80,11 @@ pub struct XyChart {
     pub caption: String,
 }
 
-fn draw_xy<DB: DrawingBackend>(chart: &XyChart, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError>
+fn draw_xy_scaled<DB: DrawingBackend>(chart: &XyChart, root: &DrawingArea<DB, Shift>, k: f64) -> Result<(), PlotError>
 where
     DB::ErrorType: 'static,
 {
+    let px = |v: f64| (v * k).round() as u32;
     root.fill(&WHITE).map_err(err)?;
     let xs = chart.lines.iter().flat_map(|l| l.points.iter().map(|p| p.0));
     let ys = chart
@@ -99,27 +100,35 @@ where
     let pad = 0.05 * (y1 - y0).max(1e-9);
     let (y0, y1) = (y0 - pad, y1 + pad);
     let x1 = if x1 > x0 { x1 } else { x0 + 1.0 };
-    let root = root
-        .titled(&chart.title, ("sans-serif", 28, FontStyle::Bold))
+    let root = if chart.title.is_empty() {
+        root.clone()
+    } else {
+        root.titled(&chart.title, ("sans-serif", px(28.0), FontStyle::Bold))
+            .map_err(err)?
+    };
+    let body = if chart.caption.is_empty() {
+        root.clone()
+    } else {
+        let (top, body) = root.split_vertically(px(30.0));
+        top.draw(&Text::new(
+            chart.caption.clone(),
+            (60, 5),
+            ("sans-serif", px(16.0)).into_font(),
+        ))
         .map_err(err)?;
-    let (top, body) = root.split_vertically(30);
-    top.draw(&Text::new(
-        chart.caption.clone(),
-        (60, 5),
-        ("sans-serif", 16).into_font(),
-    ))
-    .map_err(err)?;
+        body
+    };
     let mut c = ChartBuilder::on(&body)
-        .margin(20)
-        .x_label_area_size(55)
-        .y_label_area_size(80)
+        .margin(px(20.0))
+        .x_label_area_size(px(55.0))
+        .y_label_area_size(px(80.0))
         .build_cartesian_2d(x0..x1, y0..y1)
         .map_err(err)?;
     c.configure_mesh()
         .x_desc(chart.x_label.as_str())
         .y_desc(chart.y_label.as_str())
-        .label_style(("sans-serif", 18))
-        .axis_desc_style(("sans-serif", 20))
+        .label_style(("sans-serif", px(18.0)))
+        .axis_desc_style(("sans-serif", px(20.0)))
         .draw()
         .map_err(err)?;
     let shade = RGBColor(220, 60, 60).mix(0.18);
@@ -149,7 +158,7 @@ where
     c.configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(BLACK)
-        .label_font(("sans-serif", 18))
+        .label_font(("sans-serif", px(18.0)))
         .position(SeriesLabelPosition::UpperLeft)
         .draw()
         .map_err(err)?;
@@ -157,25 +166,35 @@ where
     Ok(())
 }
 
-/// Draws an XY chart as PNG or SVG bytes.
+/// Draws an XY chart as PNG or SVG bytes at the standard size.
 pub fn xy_chart(chart: &XyChart, format: ImageFormat) -> Result<Vec<u8>, PlotError> {
+    xy_chart_sized(chart, format, SIZE, 1.0)
+}
+
+/// Draws an XY chart at `size` pixels, with text scaled by `text_scale`.
+pub fn xy_chart_sized(
+    chart: &XyChart,
+    format: ImageFormat,
+    size: (u32, u32),
+    text_scale: f64,
+) -> Result<Vec<u8>, PlotError> {
     fonts();
     match format {
         ImageFormat::Svg => {
             let mut s = String::new();
             {
-                let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
-                draw_xy(chart, &root)?;
+                let root = SVGBackend::with_string(&mut s, size).into_drawing_area();
+                draw_xy_scaled(chart, &root, text_scale)?;
             }
             Ok(s.into_bytes())
         }
         ImageFormat::Png => {
-            let mut buf = vec![0u8; (SIZE.0 * SIZE.1 * 3) as usize];
+            let mut buf = vec![0u8; (size.0 * size.1 * 3) as usize];
             {
-                let root = BitMapBackend::with_buffer(&mut buf, SIZE).into_drawing_area();
-                draw_xy(chart, &root)?;
+                let root = BitMapBackend::with_buffer(&mut buf, size).into_drawing_area();
+                draw_xy_scaled(chart, &root, text_scale)?;
             }
-            png_bytes(buf, SIZE)
+            png_bytes(buf, size)
         }
     }
 }

@@ -205,6 +205,8 @@ pub struct LoggerSpec {
 pub struct Station {
     /// Free text shown on every output.
     pub name: String,
+    /// Free text on the gauge datum (e.g. the crest's surveyed level), shown on the field sheet.
+    pub datum: Option<String>,
     /// Where it was read from.
     pub source: String,
     /// The file's length unit.
@@ -929,6 +931,7 @@ impl Ctx<'_> {
 
         Ok(Station {
             name,
+            datum: raw.datum.as_ref().map(|d| d.get_ref().trim().to_string()),
             source: self.file.to_string(),
             length_unit: unit,
             structure: Structure {

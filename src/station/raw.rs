@@ -25,6 +25,7 @@ pub enum RawCoefficient {
 #[serde(deny_unknown_fields)]
 pub struct RawStation {
     pub name: Option<Text>,
+    pub datum: Option<Text>,
     pub length_unit: Option<Text>,
     pub gravity_m_s2: Option<Num>,
     pub control: Option<Spanned<RawControl>>,
