@@ -297,7 +297,24 @@ fn lines_text(lines: &[u32], max: usize) -> String {
     s.join(", ")
 }
 
+/// Prints phase timings to standard error when the environment variable FLUMERATE_TIMING is set
+/// (used when benchmarking; documented in DEVELOPERS.md).
+struct Timer(Option<std::time::Instant>);
+
+impl Timer {
+    fn new() -> Self {
+        Self(std::env::var_os("FLUMERATE_TIMING").map(|_| std::time::Instant::now()))
+    }
+    fn mark(&mut self, what: &str) {
+        if let Some(t) = self.0 {
+            eprintln!("timing: {what:<24} {:>8.3} s", t.elapsed().as_secs_f64());
+            self.0 = Some(std::time::Instant::now());
+        }
+    }
+}
+
 pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
+    let mut timer = Timer::new();
     if TableFile::from_path(&a.output).is_none() {
         bail!("-o {}: the output must end in .csv or .parquet", a.output.display());
     }
@@ -333,15 +350,19 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     } else {
         indicatif::ProgressBar::hidden()
     };
-    let raw = read_logger(&a.logger, &s.read, |n| bar.set_position(n))?;
+    let mut raw = read_logger(&a.logger, &s.read, |n| bar.set_position(n))?;
+    timer.mark("read");
     bar.set_message("converting");
 
     // 2. times
-    let (utc, notes) = resolve(&s.zone, &raw.wall_ms);
-    let days = local_days(&raw.wall_ms);
+    let wall = std::mem::take(&mut raw.wall_ms);
+    let (utc, notes) = resolve(&s.zone, &wall);
+    let days = local_days(&wall);
+    drop(wall);
     let (backwards, duplicates) = order_counts(&utc);
     let interval_ms = nominal_interval_ms(&utc).context("fewer than two readings with a time: nothing to convert")?;
     let interval_s = interval_ms as f64 / 1000.0;
+    timer.mark("times");
 
     // 3. the rating, its uncertainty and the exit
     let inputs = Inputs::from_station(&station.uncertainty, &station.structure);
@@ -357,6 +378,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         })
         .collect();
     let exponent = fit_power_law(&fit_points).map_or(1.5, |e| e.u);
+    timer.mark("rating table");
 
     // 4. corrections
     let m_per = metres_per(&s.stage_unit).expect("checked");
@@ -438,10 +460,15 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
 
     // 5. convert and write, chunk by chunk
     let n = raw.lines.len();
-    let mut order: Vec<usize> = (0..n).collect();
-    if a.sort {
-        order.sort_by_key(|&i| (if utc[i] == NO_TIME { i64::MAX } else { utc[i] }, raw.lines[i]));
-    }
+    // input order needs no index list; sorting keeps one (u32: 4 bytes a row)
+    let sorted: Option<Vec<u32>> = a.sort.then(|| {
+        let mut o: Vec<u32> = (0..n as u32).collect();
+        o.sort_by_key(|&i| {
+            let t = utc[i as usize];
+            (if t == NO_TIME { i64::MAX } else { t }, raw.lines[i as usize])
+        });
+        o
+    });
     let (t_min, t_max) = utc
         .iter()
         .filter(|t| **t != NO_TIME)
@@ -451,31 +478,54 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let mut summaries = Summaries::default();
     let mut writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
         .with_context(|| format!("cannot write {}", a.output.display()))?;
+    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
     let result = (|| -> anyhow::Result<()> {
-        for part in order.chunks(CHUNK_ROWS) {
-            let c = conv.convert_rows(
-                part,
-                &utc,
-                &days,
-                &raw.values,
-                &raw.lines,
-                &inputs,
-                &mut counts,
-                &mut summaries,
-            );
-            for k in 0..c.line.len() {
-                if c.time_ms[k] != NO_TIME {
-                    buckets.add(
-                        c.time_ms[k],
-                        c.discharge_m3s[k],
-                        c.low_m3s[k],
-                        c.high_m3s[k],
-                        !c.flag[k].counted(),
-                    );
+        let mut start = 0;
+        while start < n {
+            let end = (start + CHUNK_ROWS).min(n);
+            let idx: Vec<usize> = match &sorted {
+                Some(o) => o[start..end].iter().map(|&i| i as usize).collect(),
+                None => (start..end).collect(),
+            };
+            // the chunk's rows are converted on all cores; each part keeps its own counts and
+            // summaries, merged in order afterwards, so the result does not depend on the cores
+            let per = idx.len().div_ceil(threads).max(1);
+            let parts: Vec<(flumerate::series::convert::Chunk, Counts, Summaries)> = std::thread::scope(|scope| {
+                let handles: Vec<_> = idx
+                    .chunks(per)
+                    .map(|part| {
+                        let (conv, utc, days, raw, inputs) = (&conv, &utc, &days, &raw, &inputs);
+                        scope.spawn(move || {
+                            let (mut c, mut sm) = (Counts::default(), Summaries::default());
+                            let chunk =
+                                conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
+                            (chunk, c, sm)
+                        })
+                    })
+                    .collect();
+                handles
+                    .into_iter()
+                    .map(|h| h.join().expect("conversion does not panic"))
+                    .collect()
+            });
+            for (chunk, c, sm) in parts {
+                counts.merge(c);
+                summaries.merge(sm);
+                for k in 0..chunk.line.len() {
+                    if chunk.time_ms[k] != NO_TIME {
+                        buckets.add(
+                            chunk.time_ms[k],
+                            chunk.discharge_m3s[k],
+                            chunk.low_m3s[k],
+                            chunk.high_m3s[k],
+                            !chunk.flag[k].counted(),
+                        );
+                    }
                 }
+                writer.write(chunk)?;
             }
-            writer.write(&c)?;
-            bar.inc(0);
+            timer.mark("  chunk write");
+            start = end;
         }
         Ok(())
     })();
@@ -587,6 +637,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     write_atomic(&prov_path, &prov_bytes)?;
     let _ = temp_path;
 
+    timer.mark("summaries, plot, record");
     // 7. the report
     let mut r = String::new();
     r.push_str(&format!(

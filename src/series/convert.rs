@@ -158,8 +158,37 @@ pub struct Counts {
     pub unrated_lines: Vec<u32>,
 }
 
+impl Counts {
+    /// Adds another set of counts.
+    pub fn merge(&mut self, o: Counts) {
+        for (a, b) in self.per_flag.iter_mut().zip(o.per_flag) {
+            *a += b;
+        }
+        self.submerged_estimated += o.submerged_estimated;
+        self.submerged_not_estimated += o.submerged_not_estimated;
+        self.above_table += o.above_table;
+        self.no_baro += o.no_baro;
+        self.temperature_fallback += o.temperature_fallback;
+        self.unrated_lines.extend(o.unrated_lines);
+    }
+}
+
+impl Chunk {
+    /// Appends another chunk's rows.
+    pub fn append(&mut self, o: Chunk) {
+        self.time_ms.extend(o.time_ms);
+        self.stage_m.extend(o.stage_m);
+        self.head_m.extend(o.head_m);
+        self.discharge_m3s.extend(o.discharge_m3s);
+        self.low_m3s.extend(o.low_m3s);
+        self.high_m3s.extend(o.high_m3s);
+        self.flag.extend(o.flag);
+        self.line.extend(o.line);
+    }
+}
+
 /// Running statistics of one summary period.
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 struct Acc {
     rows: usize,
     counted: usize,
@@ -167,6 +196,43 @@ struct Acc {
     min_q: f64,
     max_q: f64,
     period: PeriodAccumulator,
+}
+
+impl Default for Acc {
+    fn default() -> Self {
+        Self {
+            rows: 0,
+            counted: 0,
+            sum_q: 0.0,
+            min_q: f64::INFINITY,
+            max_q: f64::NEG_INFINITY,
+            period: PeriodAccumulator::default(),
+        }
+    }
+}
+
+impl Acc {
+    fn add(&mut self, flag: Flag, q: f64, r: Option<&SeriesReading>) {
+        self.rows += 1;
+        if flag.counted() {
+            self.counted += 1;
+            self.sum_q += q;
+            self.min_q = self.min_q.min(q);
+            self.max_q = self.max_q.max(q);
+        }
+        if let Some(r) = r {
+            self.period.push(r);
+        }
+    }
+
+    fn merge(&mut self, o: &Acc) {
+        self.rows += o.rows;
+        self.counted += o.counted;
+        self.sum_q += o.sum_q;
+        self.min_q = self.min_q.min(o.min_q);
+        self.max_q = self.max_q.max(o.max_q);
+        self.period.merge(&o.period);
+    }
 }
 
 /// One summary row.
@@ -196,35 +262,49 @@ pub struct PeriodRow {
     pub covered_h: f64,
 }
 
-/// Daily and monthly summaries.
+/// Daily and monthly summaries. Consecutive rows of the same day are gathered in a running
+/// accumulator before they reach the maps, so long series cost one map update per day.
 #[derive(Debug, Clone, Default)]
 pub struct Summaries {
     days: BTreeMap<i64, Acc>,
-    months: BTreeMap<(i64, u32), Acc>,
+    current: Option<(i64, Acc)>,
 }
 
 impl Summaries {
     fn add(&mut self, day: i64, flag: Flag, q: f64, r: Option<&SeriesReading>) {
-        let (y, m, _) = civil_from_days(day);
-        for acc in [
-            self.days.entry(day).or_default(),
-            self.months.entry((y, m)).or_default(),
-        ] {
-            if acc.rows == 0 {
-                acc.min_q = f64::INFINITY;
-                acc.max_q = f64::NEG_INFINITY;
-            }
-            acc.rows += 1;
-            if flag.counted() {
-                acc.counted += 1;
-                acc.sum_q += q;
-                acc.min_q = acc.min_q.min(q);
-                acc.max_q = acc.max_q.max(q);
-            }
-            if let Some(r) = r {
-                acc.period.push(r);
+        match &mut self.current {
+            Some((d, acc)) if *d == day => acc.add(flag, q, r),
+            _ => {
+                self.flush();
+                let mut acc = Acc::default();
+                acc.add(flag, q, r);
+                self.current = Some((day, acc));
             }
         }
+    }
+
+    fn flush(&mut self) {
+        if let Some((d, acc)) = self.current.take() {
+            self.days.entry(d).or_default().merge(&acc);
+        }
+    }
+
+    /// Adds another set of summaries (from rows converted elsewhere).
+    pub fn merge(&mut self, mut other: Summaries) {
+        self.flush();
+        other.flush();
+        for (d, acc) in other.days {
+            self.days.entry(d).or_default().merge(&acc);
+        }
+    }
+
+    fn months(&self) -> BTreeMap<(i64, u32), Acc> {
+        let mut m: BTreeMap<(i64, u32), Acc> = BTreeMap::new();
+        for (d, acc) in &self.days {
+            let (y, mo, _) = civil_from_days(*d);
+            m.entry((y, mo)).or_default().merge(acc);
+        }
+        m
     }
 
     fn rows<K: Ord + Copy>(map: &BTreeMap<K, Acc>, label: impl Fn(K) -> String, inputs: &Inputs) -> Vec<PeriodRow> {
@@ -251,13 +331,15 @@ impl Summaries {
     }
 
     /// One row per local calendar day.
-    pub fn daily(&self, inputs: &Inputs) -> Vec<PeriodRow> {
+    pub fn daily(&mut self, inputs: &Inputs) -> Vec<PeriodRow> {
+        self.flush();
         Self::rows(&self.days, date_string, inputs)
     }
 
     /// One row per local calendar month.
-    pub fn monthly(&self, inputs: &Inputs) -> Vec<PeriodRow> {
-        Self::rows(&self.months, |(y, m)| format!("{y:04}-{m:02}"), inputs)
+    pub fn monthly(&mut self, inputs: &Inputs) -> Vec<PeriodRow> {
+        self.flush();
+        Self::rows(&self.months(), |(y, m)| format!("{y:04}-{m:02}"), inputs)
     }
 }
 
@@ -332,7 +414,7 @@ impl Conversion<'_> {
         &self,
         order: &[usize],
         utc: &[i64],
-        days: &[i64],
+        days: &[i32],
         values: &[Vec<f64>],
         lines: &[u32],
         inputs: &Inputs,
@@ -428,7 +510,7 @@ impl Conversion<'_> {
             }
             counts.per_flag[Flag::ALL.iter().position(|f| *f == flag).unwrap_or(0)] += 1;
             if t != NO_TIME {
-                summaries.add(days[i], flag, q, reading.as_ref().filter(|r| r.included));
+                summaries.add(i64::from(days[i]), flag, q, reading.as_ref().filter(|r| r.included));
             }
             c.time_ms.push(t);
             c.stage_m.push(stage);
@@ -443,10 +525,13 @@ impl Conversion<'_> {
     }
 }
 
-/// Local calendar days of the rows, from their wall-clock times ([`NO_TIME`] stays so).
-pub fn local_days(wall: &[i64]) -> Vec<i64> {
+/// Marks a row without a local day.
+pub const NO_DAY: i32 = i32::MIN;
+
+/// Local calendar days of the rows, from their wall-clock times.
+pub fn local_days(wall: &[i64]) -> Vec<i32> {
     wall.iter()
-        .map(|&w| if w == NO_TIME { NO_TIME } else { wall_day(w) })
+        .map(|&w| if w == NO_TIME { NO_DAY } else { wall_day(w) as i32 })
         .collect()
 }
 
@@ -479,16 +564,19 @@ pub fn order_counts(utc: &[i64]) -> (usize, usize) {
 /// The nominal logging interval (ms): the median of the positive steps between consecutive
 /// readings (at most 200 000 steps spread over the file are examined).
 pub fn nominal_interval_ms(utc: &[i64]) -> Option<i64> {
-    let valid: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
-    if valid.len() < 2 {
-        return None;
-    }
-    let stride = (valid.len() / 200_000).max(1);
-    let mut steps: Vec<i64> = (1..valid.len())
+    let n = utc.len();
+    let stride = (n / 200_000).max(1);
+    let mut steps: Vec<i64> = (1..n)
         .step_by(stride)
-        .map(|i| valid[i] - valid[i - 1])
+        .filter(|&i| utc[i] != NO_TIME && utc[i - 1] != NO_TIME)
+        .map(|i| utc[i] - utc[i - 1])
         .filter(|d| *d > 0)
         .collect();
+    if steps.is_empty() {
+        // readings separated by unread rows only: fall back to all valid neighbours
+        let valid: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
+        steps = valid.windows(2).map(|w| w[1] - w[0]).filter(|d| *d > 0).collect();
+    }
     if steps.is_empty() {
         return None;
     }

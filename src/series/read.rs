@@ -14,7 +14,7 @@ use std::sync::Arc;
 
 use polars::prelude::*;
 
-use super::time::{parse_any, TimeFormat};
+use super::time::{parse_any, TimeFormat, NO_TIME};
 
 /// Bytes per block handed to polars.
 const BLOCK_BYTES: usize = 32 << 20;
@@ -205,25 +205,40 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
 
     // preamble and header: read the first lines byte by byte from a small buffer
     let mut buf: Vec<u8> = Vec::with_capacity(BLOCK_BYTES + 4096);
-    let mut chunk = vec![0u8; BLOCK_BYTES];
     let mut eof = false;
     let mut consumed: u64 = 0;
-    let mut hasher = <sha2::Sha256 as sha2::Digest>::new();
-    let mut fill = |buf: &mut Vec<u8>, eof: &mut bool, hasher: &mut sha2::Sha256| -> Result<(), ReadError> {
+    // the file's hash is computed by a second reader in parallel (the page cache serves both)
+    let hash_path = path.to_path_buf();
+    let hashing = std::thread::spawn(move || -> std::io::Result<String> {
+        use sha2::Digest;
+        let mut f = std::fs::File::open(hash_path)?;
+        let mut h = sha2::Sha256::new();
+        let mut b = vec![0u8; 1 << 20];
+        loop {
+            let n = f.read(&mut b)?;
+            if n == 0 {
+                break;
+            }
+            h.update(&b[..n]);
+        }
+        Ok(format!("{:x}", h.finalize()))
+    });
+    let mut fill = |buf: &mut Vec<u8>, eof: &mut bool| -> Result<(), ReadError> {
         while !*eof && buf.len() < BLOCK_BYTES {
-            let n = file.read(&mut chunk).map_err(|source| ReadError::Io {
+            let len = buf.len();
+            buf.resize(len + BLOCK_BYTES, 0);
+            let n = file.read(&mut buf[len..]).map_err(|source| ReadError::Io {
                 path: p.clone(),
                 source,
             })?;
+            buf.truncate(len + n);
             if n == 0 {
                 *eof = true;
             }
-            sha2::Digest::update(hasher, &chunk[..n]);
-            buf.extend_from_slice(&chunk[..n]);
         }
         Ok(())
     };
-    fill(&mut buf, &mut eof, &mut hasher)?;
+    fill(&mut buf, &mut eof)?;
     let mut line_no: usize = 0;
     let mut start = 0;
     let take_line = |buf: &[u8], start: &mut usize| -> Option<String> {
@@ -281,8 +296,9 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     };
     buf.drain(..start);
     consumed += start as u64;
+    let total_bytes = std::fs::metadata(path).map_or(0, |m| m.len());
     loop {
-        fill(&mut buf, &mut eof, &mut hasher)?;
+        fill(&mut buf, &mut eof)?;
         if buf.is_empty() {
             break;
         }
@@ -297,20 +313,7 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         };
         let block = &buf[..end];
         let first_line = line_no + 1;
-        // line starts and blank lines of the block
-        let mut blank_in_block = Vec::new();
-        let mut n_lines = 0usize;
-        for (k, l) in block.split(|b| *b == b'\n').enumerate() {
-            n_lines = k + 1;
-            if l.iter().all(|b| b.is_ascii_whitespace()) {
-                blank_in_block.push(k);
-            }
-        }
-        if block.last() == Some(&b'\n') {
-            // split() yields an empty piece after the final newline: not a line
-            n_lines -= 1;
-            blank_in_block.pop();
-        }
+        let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
         let df = CsvReadOptions::default()
             .with_has_header(false)
             .with_schema(Some(schema.clone()))
@@ -342,10 +345,10 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
                 ),
             });
         }
-        let col = |idx: usize| -> Result<StringChunked, ReadError> {
+        let col = |idx: usize| -> Result<Chunks, ReadError> {
             df.column(&format!("c{idx}"))
                 .and_then(|c| c.str().cloned())
-                .map(|c| c.rechunk().into_owned())
+                .map(|c| Chunks::new(&c))
                 .map_err(|e| ReadError::Polars {
                     path: p.clone(),
                     from: first_line,
@@ -354,40 +357,67 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
                 })
         };
         let times = col(time_idx)?;
-        let vals: Vec<StringChunked> = value_idx.iter().map(|&i| col(i)).collect::<Result<_, _>>()?;
-        let mut blank_iter = blank_in_block.iter().peekable();
-        // parse the block's rows on all cores; rows keep their order
-        let rows: Vec<usize> = (0..n_lines)
-            .filter(|k| {
-                if blank_iter.peek() == Some(&k) {
-                    blank_iter.next();
-                    false
-                } else {
-                    true
-                }
-            })
-            .collect();
-        for k in &blank_in_block {
-            out.blank_lines.push((first_line + k) as u32);
+        let vals: Vec<Chunks> = value_idx.iter().map(|&i| col(i)).collect::<Result<_, _>>()?;
+        if out.lines.is_empty() && total_bytes > end as u64 {
+            // reserve for the whole file from the first block's bytes per line
+            let estimate = (total_bytes as f64 / end as f64 * n_lines as f64 * 1.02) as usize;
+            out.lines.reserve(estimate);
+            out.wall_ms.reserve(estimate);
+            for v in out.values.iter_mut() {
+                v.reserve(estimate);
+            }
         }
-        let parsed = parse_rows(&rows, &times, &vals, s);
-        for (k, (wall, vs, problems, empty_time)) in rows.iter().zip(parsed) {
-            let line = (first_line + k) as u32;
-            out.lines.push(line);
-            out.wall_ms.push(wall.unwrap_or(i64::MIN));
-            if empty_time {
-                out.empty_times += 1;
+        let rows: Vec<u32> = (0..n_lines as u32).collect();
+        let base = out.lines.len();
+        out.lines.extend(rows.iter().map(|k| first_line as u32 + k));
+        out.wall_ms.resize(base + n_lines, NO_TIME);
+        for v in out.values.iter_mut() {
+            v.resize(base + n_lines, f64::NAN);
+        }
+        let tally = parse_block(
+            &rows,
+            &times,
+            &vals,
+            s,
+            &mut out.wall_ms[base..],
+            out.values.iter_mut().map(|v| &mut v[base..]).collect(),
+        );
+        let mut candidates: Vec<u32> = Vec::new();
+        for t in tally {
+            out.empty_times += t.empty_times;
+            for c in 0..value_idx.len() {
+                out.empty_fields[c] += t.empty[c];
+                out.sentinel_fields[c] += t.sentinel[c];
             }
-            for (c, (v, st)) in vs.into_iter().enumerate() {
-                out.values[c].push(v);
-                match st {
-                    FieldState::Empty => out.empty_fields[c] += 1,
-                    FieldState::Sentinel => out.sentinel_fields[c] += 1,
-                    _ => {}
+            out.unreadable
+                .extend(t.problems.into_iter().map(|(k, p)| (first_line as u32 + k, p)));
+            candidates.extend(t.all_empty);
+        }
+        // a row whose fields are all white space may be a blank line: look at its bytes, and
+        // take blank lines out (they are not records; they are counted)
+        if !candidates.is_empty() {
+            let mut starts = Vec::with_capacity(n_lines + 1);
+            starts.push(0);
+            starts.extend(memchr::memchr_iter(b'\n', block).map(|i| i + 1));
+            starts.push(block.len() + 1);
+            let mut remove = vec![false; n_lines];
+            for &k in &candidates {
+                let k = k as usize;
+                let line = &block[starts[k]..starts[k + 1].saturating_sub(1).max(starts[k])];
+                if line.iter().all(|b| b.is_ascii_whitespace()) {
+                    remove[k] = true;
+                    out.blank_lines.push((first_line + k) as u32);
                 }
             }
-            if let Some(pr) = problems {
-                out.unreadable.push((line, pr));
+            if remove.iter().any(|r| *r) {
+                keep_vec(&mut out.lines, base, &remove);
+                keep_vec(&mut out.wall_ms, base, &remove);
+                for v in out.values.iter_mut() {
+                    keep_vec(v, base, &remove);
+                }
+                let removed: Vec<u32> = (0..n_lines as u32).filter(|k| remove[*k as usize]).collect();
+                out.unreadable
+                    .retain(|(l, _)| !removed.contains(&(l - first_line as u32)));
             }
         }
         line_no += n_lines;
@@ -398,7 +428,16 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
             break;
         }
     }
-    out.sha256 = format!("{:x}", sha2::Digest::finalize(hasher));
+    out.sha256 = hashing
+        .join()
+        .map_err(|_| ReadError::Io {
+            path: p.clone(),
+            source: std::io::Error::other("hashing thread failed"),
+        })?
+        .map_err(|source| ReadError::Io {
+            path: p.clone(),
+            source,
+        })?;
     if out.lines.is_empty() {
         return Err(ReadError::NoRows {
             path: p.clone(),
@@ -408,56 +447,147 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     Ok(out)
 }
 
-type ParsedRow = (Option<i64>, Vec<(f64, FieldState)>, Option<String>, bool);
+/// Drops the entries at `base + i` for every `remove[i]`.
+fn keep_vec<T>(v: &mut Vec<T>, base: usize, remove: &[bool]) {
+    let mut i = 0;
+    v.retain(|_| {
+        let keep = i < base || !remove[i - base];
+        i += 1;
+        keep
+    });
+}
 
-fn parse_rows(rows: &[usize], times: &StringChunked, vals: &[StringChunked], s: &ReadSettings) -> Vec<ParsedRow> {
-    let one = |k: usize| -> ParsedRow {
-        let t = times.get(k).unwrap_or("");
-        let wall = parse_any(&s.formats, t);
-        let mut problems = Vec::new();
-        let empty_time = t.trim().is_empty();
-        if wall.is_none() {
-            problems.push(if empty_time {
-                "empty time".to_string()
-            } else {
-                format!("time \"{}\" matches no format", t.trim())
-            });
+/// A text column of a block as polars returned it (possibly in several chunks), read by row.
+struct Chunks {
+    arrays: Vec<polars_arrow::array::Utf8ViewArray>,
+    /// Row index at which each array starts, and the total at the end.
+    starts: Vec<usize>,
+}
+
+impl Chunks {
+    fn new(ca: &StringChunked) -> Self {
+        let arrays: Vec<_> = ca.downcast_iter().cloned().collect();
+        let mut starts = Vec::with_capacity(arrays.len() + 1);
+        let mut at = 0;
+        for a in &arrays {
+            starts.push(at);
+            at += polars_arrow::array::Array::len(a);
         }
-        let vs: Vec<(f64, FieldState)> = vals
-            .iter()
-            .enumerate()
-            .map(|(c, col)| {
-                let raw = col.get(k).unwrap_or("");
-                let r = parse_value(raw, s.decimal_comma, &s.missing);
-                if r.1 == FieldState::Unreadable {
-                    problems.push(format!("value #{} \"{}\" is not a number", c + 1, raw.trim()));
-                }
-                r
-            })
-            .collect();
-        let problems = (!(problems.is_empty() || empty_time && problems.len() == 1 && is_blankish(times, vals, k)))
-            .then(|| problems.join("; "));
-        (wall, vs, problems, empty_time)
-    };
-    let threads = std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 8);
-    if rows.len() < 50_000 || threads == 1 {
-        return rows.iter().map(|&k| one(k)).collect();
+        starts.push(at);
+        Self { arrays, starts }
     }
-    let per = rows.len().div_ceil(threads);
-    let mut parts: Vec<Vec<ParsedRow>> = Vec::new();
+
+    /// The text of row `k` ("" for a null).
+    fn get(&self, k: usize) -> &str {
+        let c = self.starts.partition_point(|&s| s <= k) - 1;
+        let a = &self.arrays[c];
+        let i = k - self.starts[c];
+        if polars_arrow::array::Array::is_null(a, i) {
+            ""
+        } else {
+            a.value(i)
+        }
+    }
+}
+
+/// Counts and problems of one thread's share of a block.
+#[derive(Default)]
+struct Tally {
+    empty_times: usize,
+    empty: Vec<usize>,
+    sentinel: Vec<usize>,
+    problems: Vec<(u32, String)>,
+    /// Rows whose time and values are all empty or white space (blank-line candidates).
+    all_empty: Vec<u32>,
+}
+
+/// Parses the rows of a block (indices `rows`, already without blank lines) into `wall` and
+/// `values` (one slice per value column, each `rows.len()` long), on all cores.
+fn parse_block(
+    rows: &[u32],
+    times: &Chunks,
+    vals: &[Chunks],
+    s: &ReadSettings,
+    wall: &mut [i64],
+    values: Vec<&mut [f64]>,
+) -> Vec<Tally> {
+    let (tarr, varrs) = (times, vals);
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 8);
+    let parallel = threads > 1 && rows.len() >= 50_000;
+    let per = if parallel {
+        rows.len().div_ceil(threads)
+    } else {
+        rows.len()
+    }
+    .max(1);
+    // split every output slice into the same per-thread pieces
+    let mut value_parts: Vec<Vec<&mut [f64]>> = (0..rows.len().div_ceil(per)).map(|_| Vec::new()).collect();
+    for v in values {
+        for (i, piece) in v.chunks_mut(per).enumerate() {
+            value_parts[i].push(piece);
+        }
+    }
+    let work = |rows: &[u32], wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Tally {
+        let mut t = Tally {
+            empty: vec![0; varrs.len()],
+            sentinel: vec![0; varrs.len()],
+            ..Default::default()
+        };
+        for (j, &k) in rows.iter().enumerate() {
+            let k = k as usize;
+            let text = tarr.get(k);
+            let parsed = parse_any(&s.formats, text);
+            let empty_time = text.trim().is_empty();
+            t.empty_times += usize::from(empty_time);
+            wall[j] = parsed.unwrap_or(NO_TIME);
+            let mut bad: Option<String> = None;
+            let mut all_empty = empty_time;
+            for (c, arr) in varrs.iter().enumerate() {
+                let raw = arr.get(k);
+                let (v, st) = parse_value(raw, s.decimal_comma, &s.missing);
+                vs[c][j] = v;
+                match st {
+                    FieldState::Empty => t.empty[c] += 1,
+                    FieldState::Sentinel => t.sentinel[c] += 1,
+                    FieldState::Unreadable => {
+                        let msg = format!("value #{} \"{}\" is not a number", c + 1, raw.trim());
+                        bad = Some(bad.map_or(msg.clone(), |b| format!("{b}; {msg}")));
+                    }
+                    FieldState::Ok => {}
+                }
+                all_empty &= st == FieldState::Empty;
+            }
+            if all_empty {
+                t.all_empty.push(k as u32);
+            }
+            if parsed.is_none() && !all_empty {
+                let msg = if empty_time {
+                    "empty time".to_string()
+                } else {
+                    format!("time \"{}\" matches no format", text.trim())
+                };
+                bad = Some(bad.map_or(msg.clone(), |b| format!("{msg}; {b}")));
+            }
+            if let Some(b) = bad {
+                t.problems.push((k as u32, b));
+            }
+        }
+        t
+    };
+    if !parallel {
+        let vs: Vec<&mut [f64]> = value_parts.into_iter().flatten().collect();
+        return vec![work(rows, wall, vs)];
+    }
     std::thread::scope(|scope| {
         let handles: Vec<_> = rows
             .chunks(per)
-            .map(|part| scope.spawn(move || part.iter().map(|&k| one(k)).collect::<Vec<_>>()))
+            .zip(wall.chunks_mut(per))
+            .zip(value_parts)
+            .map(|((r, w), vs)| scope.spawn(move || work(r, w, vs)))
             .collect();
-        for h in handles {
-            parts.push(h.join().expect("row parsing does not panic"));
-        }
-    });
-    parts.into_iter().flatten().collect()
-}
-
-/// A row whose time and values are all empty (a line of separators only).
-fn is_blankish(times: &StringChunked, vals: &[StringChunked], k: usize) -> bool {
-    times.get(k).unwrap_or("").trim().is_empty() && vals.iter().all(|v| v.get(k).unwrap_or("").trim().is_empty())
+        handles
+            .into_iter()
+            .map(|h| h.join().expect("row parsing does not panic"))
+            .collect()
+    })
 }

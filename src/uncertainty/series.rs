@@ -135,6 +135,19 @@ impl PeriodAccumulator {
         self.s_h2 += (r.dq_dhead * r.duration_s).powi(2);
     }
 
+    /// Adds another accumulator's readings (the sums are additive).
+    pub fn merge(&mut self, o: &PeriodAccumulator) {
+        self.volume_m3 += o.volume_m3;
+        self.covered_s += o.covered_s;
+        self.excluded_s += o.excluded_s;
+        self.readings += o.readings;
+        self.excluded += o.excluded;
+        self.s_cd += o.s_cd;
+        self.s_b += o.s_b;
+        self.s_h += o.s_h;
+        self.s_h2 += o.s_h2;
+    }
+
     /// The period's volume and uncertainty.
     pub fn finish(&self, inputs: &Inputs) -> PeriodUncertainty {
         PeriodUncertainty {
