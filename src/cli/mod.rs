@@ -62,6 +62,37 @@ impl From<UnitsArg> for flumerate::units::Units {
     }
 }
 
+/// The heads a table covers, in the output unit.
+#[derive(Debug, Clone, clap::Args)]
+pub struct HeadArgs {
+    /// First head above the crest, in the output unit [default: the station's range.min_head]
+    #[arg(long)]
+    pub from: Option<f64>,
+    /// Last head above the crest, in the output unit [default: the station's range.max_head]
+    #[arg(long)]
+    pub to: Option<f64>,
+    /// Head increment, in the output unit [default: from the 1-2-5 series, 50 to 100 rows]
+    #[arg(long)]
+    pub step: Option<f64>,
+}
+
+impl HeadArgs {
+    /// The heads (m): the flags, or the station's range at a sensible step.
+    pub fn heads_m(
+        &self,
+        range: &flumerate::station::HeadRange,
+        units: flumerate::units::Units,
+    ) -> anyhow::Result<Vec<f64>> {
+        let from = self.from.unwrap_or(units.length_from_si(range.min_head_m));
+        let to = self.to.unwrap_or(units.length_from_si(range.max_head_m));
+        let step = self.step.unwrap_or_else(|| flumerate::rating::sensible_step(to - from));
+        Ok(flumerate::rating::head_sequence(from, to, step)?
+            .into_iter()
+            .map(|h| units.length_to_si(h))
+            .collect())
+    }
+}
+
 /// Where output goes.
 #[derive(Debug, Clone, clap::Args)]
 pub struct OutputArgs {

@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use flumerate::rating::{head_sequence, sensible_step, RatingModel, RatingTable};
+use flumerate::rating::{RatingModel, RatingTable};
 use flumerate::report::rating::{RatingReport, UncertaintyColumns};
 use flumerate::station::Station;
 use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
@@ -44,15 +44,8 @@ pub enum TableFormat {
 pub struct RateArgs {
     /// Station file (TOML)
     pub station: PathBuf,
-    /// First head above the crest, in the output unit [default: the station's range.min_head]
-    #[arg(long)]
-    pub from: Option<f64>,
-    /// Last head above the crest, in the output unit [default: the station's range.max_head]
-    #[arg(long)]
-    pub to: Option<f64>,
-    /// Head increment, in the output unit [default: from the 1-2-5 series, 50 to 100 rows]
-    #[arg(long)]
-    pub step: Option<f64>,
+    #[command(flatten)]
+    pub heads: super::HeadArgs,
     /// Unit system of heads and discharges
     #[arg(long, value_enum, default_value_t)]
     pub units: UnitsArg,
@@ -92,13 +85,7 @@ pub fn load_model(path: &std::path::Path) -> anyhow::Result<(Station, RatingMode
 pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
     let (station, model) = load_model(&a.station)?;
     let units: Units = a.units.into();
-    let from = a.from.unwrap_or(units.length_from_si(station.range.min_head_m));
-    let to = a.to.unwrap_or(units.length_from_si(station.range.max_head_m));
-    let step = a.step.unwrap_or_else(|| sensible_step(to - from));
-    let heads: Vec<f64> = head_sequence(from, to, step)?
-        .into_iter()
-        .map(|h| units.length_to_si(h))
-        .collect();
+    let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;
     let mut table = RatingTable::compute(&model, &heads);
 
     let inputs = Inputs::from_station(&station.uncertainty, &station.structure);

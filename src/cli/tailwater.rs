@@ -6,7 +6,6 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Context};
 use clap::Args;
-use flumerate::rating::{head_sequence, sensible_step};
 use flumerate::report::plot::{xy_chart, ImageFormat};
 use flumerate::report::tailwater::TailwaterReport;
 use flumerate::tailwater::{check, Exit, Tailwater, Verdict};
@@ -20,15 +19,8 @@ use super::{OutputArgs, UnitsArg};
 pub struct TailwaterArgs {
     /// Station file (TOML) with a [tailwater] table
     pub station: PathBuf,
-    /// First head above the crest, in the output unit [default: range.min_head]
-    #[arg(long)]
-    pub from: Option<f64>,
-    /// Last head above the crest, in the output unit [default: range.max_head]
-    #[arg(long)]
-    pub to: Option<f64>,
-    /// Head increment, in the output unit
-    #[arg(long)]
-    pub step: Option<f64>,
+    #[command(flatten)]
+    pub heads: super::HeadArgs,
     /// Unit system
     #[arg(long, value_enum, default_value_t)]
     pub units: UnitsArg,
@@ -58,13 +50,7 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
         None => None,
     };
     let units: Units = a.units.into();
-    let from = a.from.unwrap_or(units.length_from_si(station.range.min_head_m));
-    let to = a.to.unwrap_or(units.length_from_si(station.range.max_head_m));
-    let step = a.step.unwrap_or_else(|| sensible_step(to - from));
-    let heads: Vec<f64> = head_sequence(from, to, step)?
-        .into_iter()
-        .map(|h| units.length_to_si(h))
-        .collect();
+    let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;
     let exit = Exit::from(&station.exit);
     let tailwater = Tailwater::new(spec, station.structure.gravity_m_s2);
     let result = check(&model, &exit, &tailwater, &heads)

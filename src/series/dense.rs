@@ -108,12 +108,7 @@ impl DenseRating {
         let x = head_m.sqrt() / self.dx;
         let k = (x.floor() as usize).clamp(1, NODES - 2);
         let t = x - k as f64;
-        let c = [
-            -t * (t - 1.0) * (t - 2.0) / 6.0,
-            (t + 1.0) * (t - 1.0) * (t - 2.0) / 2.0,
-            -(t + 1.0) * t * (t - 2.0) / 2.0,
-            (t + 1.0) * t * (t - 1.0) / 6.0,
-        ];
+        let c = crate::interp::lagrange4(t);
         let mut v = [0.0; 6];
         for (m, cm) in c.iter().enumerate() {
             let node = &self.nodes[k - 1 + m];

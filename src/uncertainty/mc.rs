@@ -178,12 +178,7 @@ impl Emulator {
         let k = (x.floor() as usize).clamp(1, self.table.len() - 3);
         let t = x - k as f64;
         // four-point Lagrange weights on nodes k−1, k, k+1, k+2 (t in [0, 1) between k and k+1)
-        let c = [
-            -t * (t - 1.0) * (t - 2.0) / 6.0,
-            (t + 1.0) * (t - 1.0) * (t - 2.0) / 2.0,
-            -(t + 1.0) * t * (t - 2.0) / 2.0,
-            (t + 1.0) * t * (t - 1.0) / 6.0,
-        ];
+        let c = crate::interp::lagrange4(t);
         let mut q = 0.0;
         for (m, cm) in c.iter().enumerate() {
             let row = &self.table[k - 1 + m];
