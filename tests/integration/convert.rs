@@ -376,3 +376,47 @@ fn dense_table_interpolates_within_a_hundredth_of_a_percent() {
         }
     }
 }
+
+#[test]
+fn a_logged_tailwater_flags_drowned_rows_and_the_estimate_applies_only_to_weirs() {
+    // head 0.300 m on the test flume (abrupt exit, ξ = 1.2, no tailwater section: modular limit
+    // about 0.58); tailwater logger zero 0.100 m. Rows: tailwater 0.05 m below the crest, 0.12 m
+    // above it (H2/H1 about 0.4), 0.25 m (about 0.83: drowned, within Villemonte's 0.90), none logged.
+    let dir = tempfile::tempdir().expect("tempdir");
+    let flags = |station: &Path, extra: &[&str]| -> (Vec<String>, Vec<f64>) {
+        let out = dir.path().join("tw.csv");
+        flumerate()
+            .arg("convert")
+            .arg(data("tailwater.csv"))
+            .arg("--station")
+            .arg(station)
+            .args(["--tailwater-column", "tw", "--tailwater-zero", "0.1", "-o"])
+            .arg(&out)
+            .args(extra)
+            .assert()
+            .success();
+        let rows = read_rows(&out);
+        (
+            rows.iter().map(|r| r["flag"].clone()).collect(),
+            rows.iter().map(|r| r["discharge_m3s"].parse().expect("q")).collect(),
+        )
+    };
+    let (f, q) = flags(&data("station.toml"), &["--submerged-estimate"]);
+    assert_eq!(f, ["ok", "ok", "submerged", "ok"]);
+    // a flume: Villemonte does not apply, so the drowned row keeps the free-flow value
+    assert!((q[2] - q[0]).abs() < 1e-15);
+    // the same structure declared a weir: the estimate replaces it (Villemonte 1947)
+    let weir = dir.path().join("weir.toml");
+    let text = std::fs::read_to_string(data("station.toml"))
+        .expect("read")
+        .replace("[control]\n", "[control]\nstructure = \"weir\"\n");
+    std::fs::write(&weir, text).expect("write");
+    let (f, q) = flags(&weir, &["--submerged-estimate"]);
+    assert_eq!(f[2], "submerged");
+    assert!(
+        q[2] > 0.0 && q[2] < 0.8 * q[0],
+        "drowned flow is estimated lower: {} vs {}",
+        q[2],
+        q[0]
+    );
+}
