@@ -46,3 +46,4 @@ pub mod station;
 pub mod tailwater;
 pub mod uncertainty;
 pub mod units;
+pub mod verify;

@@ -8,6 +8,7 @@ mod rate;
 mod section;
 mod sheet;
 mod tailwater;
+mod verify;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -41,6 +42,8 @@ enum Command {
     Convert(Box<convert::ConvertArgs>),
     /// Printable one-page field sheet of the rating (HTML)
     Sheet(sheet::SheetArgs),
+    /// Run the built-in checks against published reference values
+    Verify(verify::VerifyArgs),
 }
 
 /// Output unit system.
@@ -110,6 +113,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Tailwater(a) => tailwater::run(a),
         Command::Convert(a) => convert::run(*a),
         Command::Sheet(a) => sheet::run(a),
+        Command::Verify(a) => verify::run(a),
     }
 }
 

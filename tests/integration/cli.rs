@@ -329,3 +329,13 @@ fn budget_text_lists_every_input() {
         .stdout(predicate::str::contains("coefficient"))
         .stdout(predicate::str::contains("u95 %"));
 }
+
+#[test]
+fn verify_reproduces_the_reference_values() {
+    flumerate()
+        .arg("verify")
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("references.md §8.2"))
+        .stdout(predicate::str::contains(" 0 failed"));
+}

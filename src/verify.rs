@@ -1,0 +1,223 @@
+//! Built-in checks against published and independently computed values, so that a user can see
+//! on their own machine that this build reproduces them (`flumerate verify`). The test suite checks
+//! the same sources more thoroughly; this is the short version that ships with the tool.
+
+use crate::hydraulics::{
+    alternate_depths_m, critical_at_energy, critical_depths_m, specific_energy_m, Section, STANDARD_GRAVITY_M_S2 as G,
+};
+use crate::rating::{LossMethod, RatingModel, Structure, StructureKind};
+use crate::station::TailwaterSpec;
+use crate::station::{InputDistribution, UncertaintySpec};
+use crate::tailwater::{max_tailwater_energy_m, villemonte_ratio, Tailwater};
+use crate::uncertainty::{GumModel, Inputs};
+
+/// One check.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Check {
+    /// What is computed.
+    pub what: &'static str,
+    /// Where the reference value comes from.
+    pub source: &'static str,
+    /// The reference value.
+    pub expected: f64,
+    /// What this build computes (NaN if it failed).
+    pub got: f64,
+    /// Allowed relative difference.
+    pub tolerance: f64,
+}
+
+impl Check {
+    /// Whether the computed value is within the tolerance.
+    pub fn passed(&self) -> bool {
+        ((self.got - self.expected) / self.expected).abs() <= self.tolerance
+    }
+}
+
+fn rect_model(b: f64, big_b: f64, p: f64, l: f64, loss: LossMethod) -> Option<RatingModel> {
+    RatingModel::new(Structure {
+        control: Section::Rectangle { width_m: b },
+        control_length_m: l,
+        approach: Section::Rectangle { width_m: big_b },
+        sill_height_m: p,
+        approach_alpha: 1.0,
+        loss,
+        kind: StructureKind::Flume,
+        gravity_m_s2: G,
+    })
+    .ok()
+}
+
+/// Runs every built-in check.
+pub fn checks() -> Vec<Check> {
+    let nan = f64::NAN;
+    let rect = Section::Rectangle { width_m: 1.0 };
+    let trap = Section::Trapezoid {
+        bottom_width_m: 2.0,
+        side_slope: 1.5,
+    };
+    let circle = Section::Circle { diameter_m: 1.0 };
+    let first = |s: &Section, q: f64| {
+        critical_depths_m(s, q, 1.0, G)
+            .ok()
+            .and_then(|v| v.first().copied())
+            .unwrap_or(nan)
+    };
+    let c = |what, source, expected, got, tolerance| Check {
+        what,
+        source,
+        expected,
+        got,
+        tolerance,
+    };
+    let yc_rect = first(&rect, 0.3);
+    let fixed = rect_model(1.0, 1.0, 0.3, 1.0, LossMethod::FixedCd(1.0));
+    let iso = rect_model(
+        0.5,
+        1.0,
+        0.1,
+        1.0,
+        LossMethod::BoundaryLayer {
+            displacement_thickness_m: 0.003,
+        },
+    );
+    let flume_8_2 = rect_model(0.5, 1.0, 0.1, 1.0, LossMethod::FixedCd(0.9658535721));
+    let gum = flume_8_2.as_ref().and_then(|m| {
+        let spec = UncertaintySpec {
+            coefficient_pct: Some(2.0),
+            zero_mm: Some(1.0),
+            dimension_pct: Some(0.2),
+            head_mm: Some(2.0),
+            distributions: [
+                InputDistribution::Normal,
+                InputDistribution::Normal,
+                InputDistribution::Rectangular,
+                InputDistribution::Normal,
+            ],
+            coverage_factor: 2.0,
+        };
+        let inputs = Inputs::from_station(&spec, m.structure());
+        GumModel::new(m, inputs).ok().and_then(|g| g.point(0.2).ok())
+    });
+    let h1 = 0.25;
+    let vc = (G * h1 * 2.0 / 3.0).sqrt();
+    let q44 = 0.5 * (h1 * 2.0 / 3.0) * vc;
+    let tw = Tailwater::new(
+        TailwaterSpec::Channel {
+            bed_below_crest_m: 0.1,
+            section: Section::Rectangle { width_m: 1.0 },
+            manning_n: 0.03,
+            bed_slope: 0.001,
+        },
+        G,
+    );
+    vec![
+        c(
+            "critical depth, rectangle, q = 0.3 m²/s (m)",
+            "references.md §0 (independent computation)",
+            0.2093665410,
+            yc_rect,
+            1e-9,
+        ),
+        c(
+            "critical specific energy, same (m)",
+            "references.md §0",
+            0.3140498115,
+            specific_energy_m(&rect, yc_rect, 0.3, 1.0, G),
+            1e-9,
+        ),
+        c(
+            "subcritical alternate depth at E = 1 m (m)",
+            "references.md §0",
+            0.9953684743,
+            alternate_depths_m(&rect, 1.0, 0.3, 1.0, G).map_or(nan, |a| a.subcritical_m),
+            1e-9,
+        ),
+        c(
+            "critical depth, trapezoid b = 2 m, z = 1.5, Q = 5 m³/s (m)",
+            "references.md §0",
+            0.7143239931,
+            first(&trap, 5.0),
+            1e-9,
+        ),
+        c(
+            "critical depth, circle D = 1 m, Q = 0.5 m³/s (m)",
+            "references.md §0",
+            0.3988767311,
+            first(&circle, 0.5),
+            1e-9,
+        ),
+        c(
+            "ideal discharge, circle D = 1 m at H = 0.8 m (m³/s)",
+            "references.md §2.2",
+            0.9822876420,
+            critical_at_energy(&circle, 0.8, 1.0, G).discharge_m3s,
+            1e-9,
+        ),
+        c(
+            "90° V at H = 0.3 m, (16/25)√(2g/5)·H^2.5 (m³/s)",
+            "references.md §0 and §7 (closed form)",
+            0.0624846648,
+            critical_at_energy(&Section::Triangle { side_slope: 1.0 }, 0.3, 1.0, G).discharge_m3s,
+            1e-9,
+        ),
+        c(
+            "rectangle Cd = 1 with approach velocity, h1 = 0.3 m (m³/s)",
+            "references.md §1.1 (energy-balance root)",
+            0.2978773982,
+            fixed.and_then(|m| m.discharge_m3s(0.3).ok()).unwrap_or(nan),
+            1e-9,
+        ),
+        c(
+            "ISO 4359 rectangular throat, δ* = 0.003 L, h1 = 0.2 m (m³/s)",
+            "references.md §2.2 (ISO 4359 formulas)",
+            0.0754155493,
+            iso.and_then(|m| m.discharge_m3s(0.2).ok()).unwrap_or(nan),
+            1.5e-3,
+        ),
+        c(
+            "sensitivity of Q to Cd with Cv solved",
+            "references.md §8.2",
+            1.04994,
+            gum.map_or(nan, |p| p.sensitivity_coefficient()),
+            1e-4,
+        ),
+        c(
+            "sensitivity of Q to h with Cv solved",
+            "references.md §8.2",
+            1.51665,
+            gum.map_or(nan, |p| p.sensitivity_head(0.2)),
+            1e-4,
+        ),
+        c(
+            "GUM u_c(Q)/Q (%)",
+            "references.md §8.2",
+            1.3712,
+            gum.map_or(nan, |p| p.u_rel * 100.0),
+            1e-4,
+        ),
+        c(
+            "modular limit, ξ = 1.0, friction ignored",
+            "references.md §4.4",
+            0.8261,
+            max_tailwater_energy_m(h1, vc, 1.0, 0.0, q44, Some(&tw), G) / h1,
+            1e-4,
+        ),
+        c(
+            "Villemonte Qs/Q at S = 0.8, n = 1.5",
+            "references.md §6.4 (Villemonte 1947)",
+            0.6163070,
+            villemonte_ratio(0.8, 1.5),
+            1e-6,
+        ),
+    ]
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn every_built_in_check_passes() {
+        for c in super::checks() {
+            assert!(c.passed(), "{}: got {}, expected {}", c.what, c.got, c.expected);
+        }
+    }
+}
