@@ -55,3 +55,18 @@ pub fn station_text(control: &str, approach: &str, coefficient: &str, range: (f6
         range.0, range.1
     )
 }
+
+/// A station whose short throat is rated to a high head, so H1/L > 0.7 at the top of its range
+/// (a limit from Clemmens et al. 2001, from memory).
+pub fn short_throat_station(dir: &Path) -> PathBuf {
+    station_file(
+        dir,
+        "short.toml",
+        &station_text(
+            "shape = \"rectangle\"\nwidth = 0.5\nlength = 0.3",
+            "shape = \"rectangle\"\nwidth = 1.5\nsill_height = 0.3",
+            "\"boundary-layer\"",
+            (0.05, 0.4),
+        ),
+    )
+}

@@ -44,15 +44,7 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
         rows: Vec::new(),
         equation: None,
     };
-    let summary = RatingReport {
-        name: &station.name,
-        source: &station.source,
-        model: &model,
-        table: &table,
-        units,
-        uncertainty: None,
-        modular: None,
-    };
+    let summary = RatingReport::new(&station.name, &station.source, &model, &table, units);
     for line in summary.structure_lines() {
         let _ = writeln!(s, "{line}");
     }

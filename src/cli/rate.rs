@@ -142,13 +142,9 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         })
         .collect();
     let report = RatingReport {
-        name: &station.name,
-        source: &station.source,
-        model: &model,
-        table: &table,
-        units,
         uncertainty: Some(&columns),
         modular: Some(&modular),
+        ..RatingReport::new(&station.name, &station.source, &model, &table, units)
     };
     let bytes = match a.format {
         TableFormat::Text => report.to_text(),

@@ -222,15 +222,7 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         }
         None => "not fitted (fewer than 3 valid rows)".into(),
     };
-    let report = RatingReport {
-        name: &station.name,
-        source: &station.source,
-        model: &model,
-        table: &table,
-        units,
-        uncertainty: None,
-        modular: None,
-    };
+    let report = RatingReport::new(&station.name, &station.source, &model, &table, units);
     let zero = match station
         .logger
         .as_ref()

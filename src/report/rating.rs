@@ -49,7 +49,20 @@ enum Cell {
     Text(String),
 }
 
-impl RatingReport<'_> {
+impl<'a> RatingReport<'a> {
+    /// A report with no uncertainty or tailwater columns.
+    pub fn new(name: &'a str, source: &'a str, model: &'a RatingModel, table: &'a RatingTable, units: Units) -> Self {
+        Self {
+            name,
+            source,
+            model,
+            table,
+            units,
+            uncertainty: None,
+            modular: None,
+        }
+    }
+
     /// Column names, unit suffixes per design.md.
     pub fn headers(&self) -> Vec<String> {
         let (l, q, v) = (

@@ -1,6 +1,6 @@
 //! The commands as a user runs them: formats, units, files, exit codes.
 
-use crate::common::{flumerate, rate_json, rel, station_file, station_text};
+use crate::common::{flumerate, rate_json, rel, station_file};
 use predicates::prelude::*;
 
 const DEMO: &str = "ratings/ridgeway-canal-flume.toml";
@@ -146,16 +146,7 @@ fn check_passes_every_demo_station() {
 fn check_exits_1_when_the_range_breaks_a_limit() {
     let dir = tempfile::tempdir().expect("tempdir");
     // a short throat rated to a high head: H1/L > 0.7 at the top of the range
-    let st = station_file(
-        dir.path(),
-        "short.toml",
-        &station_text(
-            "shape = \"rectangle\"\nwidth = 0.5\nlength = 0.3",
-            "shape = \"rectangle\"\nwidth = 1.5\nsill_height = 0.3",
-            "\"boundary-layer\"",
-            (0.05, 0.4),
-        ),
-    );
+    let st = crate::common::short_throat_station(dir.path());
     flumerate()
         .arg("check")
         .arg(&st)

@@ -2,7 +2,7 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::common::{flumerate, rel, station_file, station_text};
+use crate::common::{flumerate, rel};
 use flumerate::rating::RatingModel;
 use flumerate::report::sig;
 use flumerate::station::Station;
@@ -156,16 +156,7 @@ fn grid_values_equal_the_rating_at_the_same_heads() {
 fn rows_outside_the_limits_are_hatched_and_named() {
     let dir = tempfile::tempdir().expect("tempdir");
     // a short throat rated high: H1/L > 0.7 at the top (Clemmens et al. 2001, from memory)
-    let st = station_file(
-        dir.path(),
-        "short.toml",
-        &station_text(
-            "shape = \"rectangle\"\nwidth = 0.5\nlength = 0.3",
-            "shape = \"rectangle\"\nwidth = 1.5\nsill_height = 0.3",
-            "\"boundary-layer\"",
-            (0.05, 0.4),
-        ),
-    );
+    let st = crate::common::short_throat_station(dir.path());
     let (_, html) = make_sheet(&st, dir.path(), "si");
     assert!(html.contains("<tr class=\"outside\">"));
     assert!(html.contains("H1/L&lt;=0.7"));
