@@ -353,6 +353,11 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let mut raw = read_logger(&a.logger, &s.read, |n| bar.set_position(n))?;
     timer.mark("read");
     bar.set_message("converting");
+    if let Ok(style) = indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} rows {eta}") {
+        bar.set_style(style);
+    }
+    bar.set_length(raw.lines.len() as u64);
+    bar.set_position(0);
 
     // 2. times
     let wall = std::mem::take(&mut raw.wall_ms);
@@ -525,6 +530,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
                 writer.write(chunk)?;
             }
             timer.mark("  chunk write");
+            bar.set_position(end as u64);
             start = end;
         }
         Ok(())
