@@ -70,6 +70,9 @@ pub struct RateArgs {
     /// Also give each input's share of the variance at every head
     #[arg(long)]
     pub budget: bool,
+    /// Also draw the rating curve with its 95 % band to FILE.png or FILE.svg
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<std::path::PathBuf>,
     #[command(flatten)]
     pub out: OutputArgs,
 }
@@ -83,6 +86,13 @@ pub fn load_model(path: &std::path::Path) -> anyhow::Result<(Station, RatingMode
 }
 
 pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
+    let plot_format = match &a.plot {
+        Some(p) => Some(
+            flumerate::report::plot::ImageFormat::from_path(p)
+                .with_context(|| format!("--plot {}: give a .png or .svg file name", p.display()))?,
+        ),
+        None => None,
+    };
     let (station, model) = load_model(&a.station)?;
     let units: Units = a.units.into();
     let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;
@@ -151,6 +161,10 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         TableFormat::Csv => report.to_csv()?,
         TableFormat::Json => report.to_json()?,
     };
+    if let (Some(path), Some(fmt)) = (&a.plot, plot_format) {
+        let img = flumerate::report::plot::xy_chart(&report.chart(), fmt)?;
+        super::output::write_atomic(path, &img)?;
+    }
     emit(&bytes, a.out.output.as_deref())?;
     Ok(if a.strict && table.invalid_rows() > 0 {
         ExitCode::from(1)

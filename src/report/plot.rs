@@ -151,9 +151,12 @@ where
             c.draw_series(LineSeries::new(pts, color.stroke_width(3)))
                 .map_err(err)?
         };
-        series
-            .label(line.label.clone())
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(3)));
+        // an unlabelled line (the second edge of a band) has no legend entry of its own
+        if !line.label.is_empty() {
+            series
+                .label(line.label.clone())
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(3)));
+        }
     }
     c.configure_series_labels()
         .background_style(WHITE.mix(0.85))

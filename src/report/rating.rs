@@ -133,6 +133,82 @@ impl<'a> RatingReport<'a> {
         cells
     }
 
+    /// The rating curve (head against discharge) with the 95 % band, rows outside the limits of
+    /// application shaded.
+    pub fn chart(&self) -> super::plot::XyChart {
+        use plotters::style::RGBColor;
+        let u = self.units;
+        let (lu, qu) = u.symbols();
+        let rows: Vec<(usize, crate::rating::RatingPoint, bool)> = self
+            .table
+            .rows
+            .iter()
+            .enumerate()
+            .filter_map(|(i, r)| r.point.map(|p| (i, p, r.valid)))
+            .collect();
+        let band = |sign: f64| -> Vec<(f64, f64)> {
+            rows.iter()
+                .filter_map(|(i, p, _)| {
+                    let u95 = self.uncertainty.map(|x| x.u95_pct[*i])?;
+                    Some((
+                        u.discharge_from_si(p.discharge_m3s * (1.0 + sign * u95 / 100.0)),
+                        u.length_from_si(p.head_m),
+                    ))
+                })
+                .collect()
+        };
+        let mut shaded = Vec::new();
+        let mut start: Option<f64> = None;
+        for (k, (_, p, valid)) in rows.iter().enumerate() {
+            let q = u.discharge_from_si(p.discharge_m3s);
+            match (valid, start) {
+                (false, None) => {
+                    start = Some(if k > 0 {
+                        0.5 * (u.discharge_from_si(rows[k - 1].1.discharge_m3s) + q)
+                    } else {
+                        q
+                    })
+                }
+                (true, Some(s)) => {
+                    shaded.push((s, 0.5 * (u.discharge_from_si(rows[k - 1].1.discharge_m3s) + q)));
+                    start = None;
+                }
+                _ => {}
+            }
+        }
+        if let (Some(s), Some(last)) = (start, rows.last()) {
+            shaded.push((s, u.discharge_from_si(last.1.discharge_m3s)));
+        }
+        let mut lines = vec![super::plot::Line {
+            label: "rating".into(),
+            points: rows
+                .iter()
+                .map(|(_, p, _)| (u.discharge_from_si(p.discharge_m3s), u.length_from_si(p.head_m)))
+                .collect(),
+            color: RGBColor(20, 70, 160),
+            dashed: false,
+        }];
+        if self.uncertainty.is_some() {
+            for (label, sign) in [("95 % band (GUM, k = 2)", 1.0), ("", -1.0)] {
+                lines.push(super::plot::Line {
+                    label: label.into(),
+                    points: band(sign),
+                    color: RGBColor(120, 140, 190),
+                    dashed: true,
+                });
+            }
+        }
+        super::plot::XyChart {
+            title: format!("{}: rating", self.name),
+            x_label: format!("discharge Q ({qu})"),
+            y_label: format!("head h1 above the crest ({lu})"),
+            lines,
+            shaded,
+            shaded_label: "outside the limits of application".into(),
+            caption: "computed by critical-flow theory; confirm by field gaugings".into(),
+        }
+    }
+
     /// One-line description of the loss method.
     pub fn method_line(&self) -> String {
         let s = self.model.structure();

@@ -330,3 +330,17 @@ fn verify_reproduces_the_reference_values() {
         .stdout(predicate::str::contains("references.md §8.2"))
         .stdout(predicate::str::contains(" 0 failed"));
 }
+
+#[test]
+fn rate_draws_the_rating_curve() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let (png, svg) = (dir.path().join("r.png"), dir.path().join("r.svg"));
+    for p in [&png, &svg] {
+        flumerate().args(["rate", DEMO, "--plot"]).arg(p).assert().success();
+    }
+    assert_eq!(&std::fs::read(&png).expect("png")[..4], b"\x89PNG");
+    assert!(std::fs::read_to_string(&svg)
+        .expect("svg")
+        .contains("head h1 above the crest (m)"));
+    flumerate().args(["rate", DEMO, "--plot", "r.gif"]).assert().code(2);
+}
