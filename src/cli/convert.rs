@@ -28,7 +28,7 @@ use serde_json::json;
 use super::output::{emit, write_atomic};
 
 /// Rows per output chunk.
-const CHUNK_ROWS: usize = 1 << 20;
+const CHUNK_ROWS: usize = 1 << 19;
 /// Default time formats, tried in order.
 const DEFAULT_FORMATS: [&str; 4] = [
     "%Y-%m-%d %H:%M:%S",
@@ -481,63 +481,79 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let mut buckets = HydroBuckets::new(t_min, t_max, 1100);
     let mut counts = Counts::default();
     let mut summaries = Summaries::default();
-    let mut writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
+    let writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
         .with_context(|| format!("cannot write {}", a.output.display()))?;
     let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
-    let result = (|| -> anyhow::Result<()> {
-        let mut start = 0;
-        while start < n {
-            let end = (start + CHUNK_ROWS).min(n);
-            let idx: Vec<usize> = match &sorted {
-                Some(o) => o[start..end].iter().map(|&i| i as usize).collect(),
-                None => (start..end).collect(),
-            };
-            // the chunk's rows are converted on all cores; each part keeps its own counts and
-            // summaries, merged in order afterwards, so the result does not depend on the cores
-            let per = idx.len().div_ceil(threads).max(1);
-            let parts: Vec<(flumerate::series::convert::Chunk, Counts, Summaries)> = std::thread::scope(|scope| {
-                let handles: Vec<_> = idx
-                    .chunks(per)
-                    .map(|part| {
-                        let (conv, utc, days, raw, inputs) = (&conv, &utc, &days, &raw, &inputs);
-                        scope.spawn(move || {
-                            let (mut c, mut sm) = (Counts::default(), Summaries::default());
-                            let chunk =
-                                conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
-                            (chunk, c, sm)
-                        })
-                    })
-                    .collect();
-                handles
-                    .into_iter()
-                    .map(|h| h.join().expect("conversion does not panic"))
-                    .collect()
-            });
-            for (chunk, c, sm) in parts {
-                counts.merge(c);
-                summaries.merge(sm);
-                for k in 0..chunk.line.len() {
-                    if chunk.time_ms[k] != NO_TIME {
-                        buckets.add(
-                            chunk.time_ms[k],
-                            chunk.discharge_m3s[k],
-                            chunk.low_m3s[k],
-                            chunk.high_m3s[k],
-                            !chunk.flag[k].counted(),
-                        );
-                    }
-                }
-                writer.write(chunk)?;
+    // a writer thread encodes finished chunks while the next ones are converted; the bounded
+    // queue keeps at most one chunk waiting, so memory stays flat
+    let (tx, rx) = std::sync::mpsc::sync_channel::<flumerate::series::convert::Chunk>(1);
+    let writing = std::thread::spawn(move || -> (SeriesWriter, polars::prelude::PolarsResult<()>) {
+        let mut writer = writer;
+        for chunk in rx {
+            if let Err(e) = writer.write(chunk) {
+                return (writer, Err(e));
             }
-            timer.mark("  chunk write");
-            bar.set_position(end as u64);
-            start = end;
         }
-        Ok(())
-    })();
-    if let Err(e) = result {
+        (writer, Ok(()))
+    });
+    let mut start = 0;
+    while start < n {
+        let end = (start + CHUNK_ROWS).min(n);
+        let idx: Vec<usize> = match &sorted {
+            Some(o) => o[start..end].iter().map(|&i| i as usize).collect(),
+            None => (start..end).collect(),
+        };
+        // the chunk's rows are converted on all cores; each part keeps its own counts and
+        // summaries, merged in order afterwards, so the result does not depend on the cores
+        let per = idx.len().div_ceil(threads).max(1);
+        let parts: Vec<(flumerate::series::convert::Chunk, Counts, Summaries)> = std::thread::scope(|scope| {
+            let handles: Vec<_> = idx
+                .chunks(per)
+                .map(|part| {
+                    let (conv, utc, days, raw, inputs) = (&conv, &utc, &days, &raw, &inputs);
+                    scope.spawn(move || {
+                        let (mut c, mut sm) = (Counts::default(), Summaries::default());
+                        let chunk =
+                            conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
+                        (chunk, c, sm)
+                    })
+                })
+                .collect();
+            handles
+                .into_iter()
+                .map(|h| h.join().expect("conversion does not panic"))
+                .collect()
+        });
+        let mut stopped = false;
+        for (chunk, c, sm) in parts {
+            counts.merge(c);
+            summaries.merge(sm);
+            for k in 0..chunk.line.len() {
+                if chunk.time_ms[k] != NO_TIME {
+                    buckets.add(
+                        chunk.time_ms[k],
+                        chunk.discharge_m3s[k],
+                        chunk.low_m3s[k],
+                        chunk.high_m3s[k],
+                        !chunk.flag[k].counted(),
+                    );
+                }
+            }
+            // a closed queue means the writer stopped on an error, reported below
+            stopped |= tx.send(chunk).is_err();
+        }
+        timer.mark("  chunk");
+        bar.set_position(end as u64);
+        if stopped {
+            break;
+        }
+        start = end;
+    }
+    drop(tx);
+    let (writer, written) = writing.join().expect("the writer thread does not panic");
+    if let Err(e) = written {
         writer.abandon();
-        return Err(e.context(format!("writing {}", a.output.display())));
+        return Err(anyhow::Error::new(e).context(format!("writing {}", a.output.display())));
     }
     writer
         .finish()
