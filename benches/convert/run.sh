@@ -31,6 +31,7 @@ best() { # best wall time (s) and its peak RSS (kB) of two runs
   echo "$b $m"
 }
 read -r t_read m_read < <(best "$target/examples/polars_read_only" "$data")
+read -r t_dates m_dates < <(best "$target/examples/polars_read_only" "$data" --dates)
 read -r t_pq m_pq < <(best "$bin" convert "$data" --station benches/convert/bench-station.toml -o "$work/out.parquet")
 read -r t_csv m_csv < <(best "$bin" convert "$data" --station benches/convert/bench-station.toml -o "$work/out.csv")
 read -r t_pd m_pd < <(best python3 benches/convert/pandas_convert.py "$data" "$work/rating.csv" "$work/pandas.parquet")
@@ -38,6 +39,7 @@ read -r t_pd m_pd < <(best python3 benches/convert/pandas_convert.py "$data" "$w
 mb() { awk "BEGIN{printf \"%.0f\", $1/1024}"; }
 echo "file: $rows rows, $(awk "BEGIN{printf \"%.0f\", $size/1048576}") MiB"
 echo "polars read only:          ${t_read} s, peak $(mb "$m_read") MiB"
+echo "polars read, parsing dates: ${t_dates} s, peak $(mb "$m_dates") MiB  (flumerate parquet is $(awk "BEGIN{printf \"%.2f\", $t_pq/$t_dates}") x this)"
 echo "flumerate convert parquet: ${t_pq} s, peak $(mb "$m_pq") MiB  ($(awk "BEGIN{printf \"%.2f\", $t_pq/$t_read}") x the read; target <= 1.5)"
 echo "flumerate convert csv:     ${t_csv} s, peak $(mb "$m_csv") MiB  ($(awk "BEGIN{printf \"%.2f\", $t_csv/$t_read}") x the read)"
 echo "pandas + numpy (parquet):  ${t_pd} s, peak $(mb "$m_pd") MiB  (flumerate is $(awk "BEGIN{printf \"%.1f\", $t_pd/$t_pq}") x faster; target >= 10)"
