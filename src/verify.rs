@@ -5,7 +5,7 @@
 use crate::hydraulics::{
     alternate_depths_m, critical_at_energy, critical_depths_m, specific_energy_m, Section, STANDARD_GRAVITY_M_S2 as G,
 };
-use crate::rating::{LossMethod, RatingModel, Structure, StructureKind};
+use crate::rating::{LossMethod, RatingModel, Structure};
 use crate::station::TailwaterSpec;
 use crate::station::{InputDistribution, UncertaintySpec};
 use crate::tailwater::{max_tailwater_energy_m, villemonte_ratio, Tailwater};
@@ -34,17 +34,7 @@ impl Check {
 }
 
 fn rect_model(b: f64, big_b: f64, p: f64, l: f64, loss: LossMethod) -> Option<RatingModel> {
-    RatingModel::new(Structure {
-        control: Section::Rectangle { width_m: b },
-        control_length_m: l,
-        approach: Section::Rectangle { width_m: big_b },
-        sill_height_m: p,
-        approach_alpha: 1.0,
-        loss,
-        kind: StructureKind::Flume,
-        gravity_m_s2: G,
-    })
-    .ok()
+    RatingModel::new(Structure::rectangular(b, big_b, p, l, loss)).ok()
 }
 
 /// Runs every built-in check.

@@ -9,15 +9,14 @@ use std::process::ExitCode;
 use anyhow::{bail, Context};
 use clap::Args;
 use flumerate::rating::fit_power_law;
-use flumerate::report::plot::{hydrograph, HydroBuckets, ImageFormat};
+use flumerate::report::plot::{hydrograph, HydroBuckets};
 use flumerate::report::{sig, wrap, CAUTIONS};
 use flumerate::series::convert::{
-    local_days, nominal_interval_ms, order_counts, time_note_lines, usable_drift, Conversion, Counts, Flag,
-    StageSource, Summaries,
+    local_days, nominal_interval_ms, order_counts, time_note_lines, Conversion, Counts, Flag, StageSource, Summaries,
 };
-use flumerate::series::correct::{drift_points, metres_per, pascals_per, DriftPoint, TimeSeries};
+use flumerate::series::correct::{drift_points, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use flumerate::series::dense::DenseRating;
-use flumerate::series::output::{temp_path, write_summary, SeriesWriter, TableFile};
+use flumerate::series::output::{write_summary, SeriesWriter, TableFile};
 use flumerate::series::read::{read_logger, ColumnRef, ReadSettings};
 use flumerate::series::time::{parse_any, resolve, TimeFormat, Zone, NO_TIME};
 use flumerate::station::LoggerSpec;
@@ -325,12 +324,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             }
         }
     }
-    let plot_format = match &a.plot {
-        Some(p) => Some(
-            ImageFormat::from_path(p).with_context(|| format!("--plot {}: give a .png or .svg file", p.display()))?,
-        ),
-        None => None,
-    };
+    let plot_format = super::output::plot_format(a.plot.as_deref())?;
     let (station, model) = super::rate::load_model(&a.station)?;
     let logger = station.logger.clone().unwrap_or_default();
     let s = resolve_settings(&a, &logger)?;
@@ -590,7 +584,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let time_notes = time_note_lines(&notes, &raw.lines);
     let provenance = json!({
         "flumerate_version": env!("CARGO_PKG_VERSION"),
-        "station": { "path": a.station.display().to_string(), "sha256": hash_file(&a.station)?, "name": station.name },
+        "station": { "path": a.station.display().to_string(), "sha256": station.sha256, "name": station.name },
         "logger": { "path": a.logger.display().to_string(), "sha256": raw.sha256, "bytes": size },
         "settings": {
             "time_formats": s.read.formats.iter().map(|f| f.as_str()).collect::<Vec<_>>(),
@@ -657,7 +651,6 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let mut prov_bytes = serde_json::to_vec_pretty(&provenance)?;
     prov_bytes.push(b'\n');
     write_atomic(&prov_path, &prov_bytes)?;
-    let _ = temp_path;
 
     timer.mark("summaries, plot, record");
     // 7. the report

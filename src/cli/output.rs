@@ -23,24 +23,29 @@ pub fn emit(bytes: &[u8], path: Option<&Path>) -> anyhow::Result<()> {
 
 /// Writes a whole file via a temporary sibling and a rename.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
-    };
-    let name = path
-        .file_name()
+    path.file_name()
         .with_context(|| format!("output path {} names no file", path.display()))?;
-    let tmp = dir.join(format!(".{}.{}.tmp", name.to_string_lossy(), std::process::id()));
+    let tmp = flumerate::series::output::temp_path(path);
     let result = (|| -> anyhow::Result<()> {
         let mut f = std::fs::File::create(&tmp)
             .with_context(|| format!("creating {} (does the folder exist and is it writable?)", tmp.display()))?;
         f.write_all(bytes)
             .with_context(|| format!("writing {}", tmp.display()))?;
         f.sync_all().with_context(|| format!("flushing {}", tmp.display()))?;
-        std::fs::rename(&tmp, path).with_context(|| format!("renaming {} to {}", tmp.display(), path.display()))
+        flumerate::series::output::commit(&tmp, path)
+            .with_context(|| format!("renaming {} to {}", tmp.display(), path.display()))
     })();
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
     }
     result
+}
+
+/// The picture format of a `--plot FILE` flag, checked before any work is done.
+pub fn plot_format(plot: Option<&Path>) -> anyhow::Result<Option<flumerate::report::plot::ImageFormat>> {
+    plot.map(|p| {
+        flumerate::report::plot::ImageFormat::from_path(p)
+            .with_context(|| format!("--plot {}: give a .png or .svg file name", p.display()))
+    })
+    .transpose()
 }

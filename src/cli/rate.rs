@@ -86,13 +86,7 @@ pub fn load_model(path: &std::path::Path) -> anyhow::Result<(Station, RatingMode
 }
 
 pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
-    let plot_format = match &a.plot {
-        Some(p) => Some(
-            flumerate::report::plot::ImageFormat::from_path(p)
-                .with_context(|| format!("--plot {}: give a .png or .svg file name", p.display()))?,
-        ),
-        None => None,
-    };
+    let plot_format = super::output::plot_format(a.plot.as_deref())?;
     let (station, model) = load_model(&a.station)?;
     let units: Units = a.units.into();
     let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;

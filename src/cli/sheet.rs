@@ -6,14 +6,13 @@ use std::process::ExitCode;
 use anyhow::{bail, Context};
 use clap::{Args, ValueEnum};
 use flumerate::rating::{RatingTable, StructureKind};
-use flumerate::report::plot::{xy_chart_sized, ImageFormat, Line, XyChart};
+use flumerate::report::plot::{xy_chart_sized, ImageFormat};
 use flumerate::report::rating::RatingReport;
 use flumerate::report::sheet::{Paper, Sheet, SheetCell, SheetRow};
 use flumerate::report::sig;
 use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
 use flumerate::uncertainty::{GumModel, Inputs};
 use flumerate::units::Units;
-use plotters::style::RGBColor;
 
 use super::output::write_atomic;
 use super::UnitsArg;
@@ -147,50 +146,11 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         })
         .collect();
 
-    // the curve: head against discharge, the invalid stretches shaded
-    let pts: Vec<(f64, f64, bool)> = table
-        .rows
-        .iter()
-        .filter_map(|r| {
-            r.point.map(|p| {
-                (
-                    units.discharge_from_si(p.discharge_m3s),
-                    units.length_from_si(p.head_m),
-                    r.valid,
-                )
-            })
-        })
-        .collect();
-    let mut shaded = Vec::new();
-    let mut start: Option<f64> = None;
-    for (i, p) in pts.iter().enumerate() {
-        match (p.2, start) {
-            (false, None) => start = Some(if i > 0 { 0.5 * (pts[i - 1].0 + p.0) } else { p.0 }),
-            (true, Some(s)) => {
-                shaded.push((s, 0.5 * (pts[i - 1].0 + p.0)));
-                start = None;
-            }
-            _ => {}
-        }
-    }
-    if let (Some(s), Some(l)) = (start, pts.last()) {
-        shaded.push((s, l.0));
-    }
-    let (lu, qu) = units.symbols();
-    let chart = XyChart {
-        title: String::new(),
-        x_label: format!("discharge Q ({qu})"),
-        y_label: format!("head h1 ({lu})"),
-        lines: vec![Line {
-            label: "rating".into(),
-            points: pts.iter().map(|p| (p.0, p.1)).collect(),
-            color: RGBColor(0, 0, 0),
-            dashed: false,
-        }],
-        shaded,
-        shaded_label: "outside the limits".into(),
-        caption: String::new(),
-    };
+    let report = RatingReport::new(&station.name, &station.source, &model, &table, units);
+    // the curve is the rating report's chart, without the title and caption the sheet prints itself
+    let mut chart = report.chart();
+    chart.title.clear();
+    chart.caption.clear();
     let svg = String::from_utf8(xy_chart_sized(&chart, ImageFormat::Svg, (480, 300), 0.62)?)?;
     // inline SVG in HTML needs no namespace declaration; dropping it keeps the file free of URLs
     let svg = svg.replace(" xmlns=\"http://www.w3.org/2000/svg\"", "");
@@ -207,10 +167,10 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
                 .map(|p| (sig(units.length_from_si(h), 3), p.u95_pct()))
         })
         .collect();
+    let (lu, qu) = units.symbols();
     let equation = match table.equation {
         Some(eq) => {
-            let k = units.discharge_from_si(eq.k) * per_unit.powf(eq.u);
-            let h0 = units.length_from_si(eq.h0_m);
+            let (k, h0) = report.equation_in_units();
             format!(
                 "Q = {} (h1 {} {})^{} (Q in {qu}, h1 in {lu}); within {} % of the table",
                 sig(k, 5),
@@ -222,7 +182,6 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         }
         None => "not fitted (fewer than 3 valid rows)".into(),
     };
-    let report = RatingReport::new(&station.name, &station.source, &model, &table, units);
     let zero = match station
         .logger
         .as_ref()
@@ -238,16 +197,11 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         StructureKind::Flume => "flume",
         StructureKind::Weir => "weir",
     };
-    let sha256 = {
-        use sha2::Digest;
-        let bytes = std::fs::read(&a.station).with_context(|| format!("reading {}", a.station.display()))?;
-        format!("{:x}", sha2::Sha256::digest(&bytes))
-    };
     let sheet = Sheet {
         name: station.name.clone(),
         datum: station.datum.clone(),
         source: station.source.clone(),
-        sha256,
+        sha256: station.sha256.clone(),
         generated: a
             .date
             .clone()

@@ -6,7 +6,7 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Context};
 use clap::Args;
-use flumerate::report::plot::{xy_chart, ImageFormat};
+use flumerate::report::plot::xy_chart;
 use flumerate::report::tailwater::TailwaterReport;
 use flumerate::tailwater::{check, Exit, Tailwater, Verdict};
 use flumerate::units::Units;
@@ -42,13 +42,7 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
             a.station.display()
         );
     };
-    let plot_format = match &a.plot {
-        Some(p) => Some(
-            ImageFormat::from_path(p)
-                .with_context(|| format!("--plot {}: give a .png or .svg file name", p.display()))?,
-        ),
-        None => None,
-    };
+    let plot_format = super::output::plot_format(a.plot.as_deref())?;
     let units: Units = a.units.into();
     let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;
     let exit = Exit::from(&station.exit);

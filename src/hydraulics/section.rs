@@ -187,11 +187,6 @@ impl PointsSection {
         self.surveyed_top_m
     }
 
-    /// Depths (m) at which the geometry changes slope, ascending, starting with 0.
-    pub fn breakpoints_m(&self) -> impl Iterator<Item = f64> + '_ {
-        self.bands.iter().map(|b| b.y0)
-    }
-
     fn band(&self, depth_m: f64) -> &Band {
         let i = self.bands.partition_point(|b| b.y0 <= depth_m);
         &self.bands[i.saturating_sub(1)]

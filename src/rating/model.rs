@@ -61,6 +61,32 @@ pub struct Structure {
     pub gravity_m_s2: f64,
 }
 
+impl Structure {
+    /// A rectangular control `width_m` wide and `length_m` long in a rectangular approach
+    /// `approach_width_m` wide, the crest `sill_height_m` above the approach bed; α = 1, flume
+    /// limits, standard gravity. The set-up of the references' rectangular examples.
+    pub fn rectangular(
+        width_m: f64,
+        approach_width_m: f64,
+        sill_height_m: f64,
+        length_m: f64,
+        loss: LossMethod,
+    ) -> Self {
+        Self {
+            control: Section::Rectangle { width_m },
+            control_length_m: length_m,
+            approach: Section::Rectangle {
+                width_m: approach_width_m,
+            },
+            sill_height_m,
+            approach_alpha: 1.0,
+            loss,
+            kind: StructureKind::Flume,
+            gravity_m_s2: crate::hydraulics::STANDARD_GRAVITY_M_S2,
+        }
+    }
+}
+
 /// Why a rating point could not be computed.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
@@ -297,21 +323,10 @@ impl RatingModel {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::hydraulics::STANDARD_GRAVITY_M_S2;
     use approx::assert_relative_eq;
 
     fn rect(b: f64, big_b: f64, p: f64, l: f64, loss: LossMethod) -> RatingModel {
-        RatingModel::new(Structure {
-            control: Section::Rectangle { width_m: b },
-            control_length_m: l,
-            approach: Section::Rectangle { width_m: big_b },
-            sill_height_m: p,
-            approach_alpha: 1.0,
-            loss,
-            kind: StructureKind::Flume,
-            gravity_m_s2: STANDARD_GRAVITY_M_S2,
-        })
-        .expect("model")
+        RatingModel::new(Structure::rectangular(b, big_b, p, l, loss)).expect("model")
     }
 
     #[test]

@@ -288,7 +288,8 @@ impl<'a> RatingReport<'a> {
     }
 
     /// K and h0 of the rating equation converted to the output units.
-    fn equation_in_units(&self) -> (f64, f64) {
+    /// K and h0 of the rating equation in the output units (the table must have an equation).
+    pub fn equation_in_units(&self) -> (f64, f64) {
         let eq = self.table.equation.expect("caller checked");
         // Q_u = Kq·K·(h_u·Lm + h0)^u with Lm = metres per unit: K_u = Kq·K·Lm^u
         let lm = self.units.length_to_si(1.0);

@@ -87,11 +87,6 @@ fn esc(s: &str) -> String {
         .replace('"', "&quot;")
 }
 
-/// Formats a discharge for the grid: `figures` significant figures, plain notation.
-pub fn grid_value(v: f64, figures: usize) -> String {
-    super::sig(v, figures)
-}
-
 impl Sheet {
     /// The page as HTML.
     pub fn to_html(&self) -> String {
@@ -200,7 +195,7 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
             for cell in &row.cells {
                 match cell.discharge_m3s {
                     Some(q) => {
-                        let shown = grid_value(self.units.discharge_from_si(q), self.figures);
+                        let shown = super::sig(self.units.discharge_from_si(q), self.figures);
                         h.push_str(&format!(
                             "<td class=\"{}\" data-head-m=\"{}\" data-q-m3s=\"{}\">{}</td>",
                             if cell.valid { "q" } else { "q bad" },

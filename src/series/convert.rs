@@ -12,13 +12,13 @@
 
 use std::collections::BTreeMap;
 
-use super::correct::{depth_from_pressure_m, drift_at_usable, DriftPoint, TimeSeries};
+use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
 use super::time::{civil_from_days, date_string, wall_day, TimeNote, NO_TIME};
 use crate::rating::RatingModel;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_discharge_estimate_m3s, Tailwater};
-use crate::uncertainty::{GumModel, Inputs, PeriodAccumulator, SeriesReading, COVERAGE_FACTOR};
+use crate::uncertainty::{reading_band, GumModel, Inputs, PeriodAccumulator, SeriesReading};
 
 /// One flag per row, most severe first.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
@@ -461,11 +461,16 @@ impl Conversion<'_> {
                     });
                 } else if let Some(r) = self.rated(head, counts, lines[i]) {
                     q = r.discharge_m3s;
-                    let u = ((r.dq_dcoefficient * inputs.coefficient.standard).powi(2)
-                        + (r.dq_ddimension * inputs.dimension.standard).powi(2)
-                        + (r.dq_dhead * inputs.head_standard_m()).powi(2))
-                    .sqrt();
-                    band = ((q - COVERAGE_FACTOR * u).max(0.0), q + COVERAGE_FACTOR * u);
+                    let mut rd = SeriesReading {
+                        discharge_m3s: q,
+                        dq_dcoefficient: r.dq_dcoefficient,
+                        dq_ddimension: r.dq_ddimension,
+                        dq_dhead: r.dq_dhead,
+                        duration_s: self.interval_s,
+                        included: false,
+                    };
+                    let (lo, hi) = reading_band(inputs, &rd);
+                    band = (lo.max(0.0), hi);
                     flag = if head > self.range.max_head_m {
                         Flag::AboveRange
                     } else if head < self.range.min_head_m {
@@ -498,17 +503,12 @@ impl Conversion<'_> {
                             }
                         }
                     }
-                    reading = Some(SeriesReading {
-                        discharge_m3s: q,
-                        dq_dcoefficient: r.dq_dcoefficient,
-                        dq_ddimension: r.dq_ddimension,
-                        dq_dhead: r.dq_dhead,
-                        duration_s: self.interval_s,
-                        included: flag.counted(),
-                    });
+                    rd.discharge_m3s = q;
+                    rd.included = flag.counted();
+                    reading = Some(rd);
                 }
             }
-            counts.per_flag[Flag::ALL.iter().position(|f| *f == flag).unwrap_or(0)] += 1;
+            counts.per_flag[flag as usize] += 1;
             if t != NO_TIME {
                 summaries.add(i64::from(days[i]), flag, q, reading.as_ref().filter(|r| r.included));
             }
@@ -583,16 +583,6 @@ pub fn nominal_interval_ms(utc: &[i64]) -> Option<i64> {
     let mid = steps.len() / 2;
     let (_, m, _) = steps.select_nth_unstable(mid);
     Some(*m)
-}
-
-/// Drift points usable for correction: (time, staff − logger), sorted by time.
-pub fn usable_drift(points: &[DriftPoint]) -> Vec<(i64, f64)> {
-    let mut v: Vec<(i64, f64)> = points
-        .iter()
-        .filter_map(|p| p.drift_m().map(|d| (p.time_ms, d)))
-        .collect();
-    v.sort_by_key(|p| p.0);
-    v
 }
 
 /// Rows of the times: counts of each [`TimeNote`] with the lines of the notable ones.

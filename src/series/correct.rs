@@ -89,17 +89,18 @@ pub fn drift_points(visits: &[(i64, f64)], logger: &TimeSeries, max_gap_ms: i64)
     v
 }
 
-/// The drift correction (m) to add at time `t`: linear in time between the usable visits, constant
-/// before the first and after the last; zero without usable visits.
-pub fn drift_at(points: &[DriftPoint], t: i64) -> f64 {
-    let usable: Vec<(i64, f64)> = points
+/// The usable visits as (time, staff − logger) pairs sorted by time.
+pub fn usable_drift(points: &[DriftPoint]) -> Vec<(i64, f64)> {
+    let mut v: Vec<(i64, f64)> = points
         .iter()
         .filter_map(|p| p.drift_m().map(|d| (p.time_ms, d)))
         .collect();
-    drift_at_usable(&usable, t)
+    v.sort_by_key(|p| p.0);
+    v
 }
 
-/// [`drift_at`] on (time, drift) pairs sorted by time.
+/// The drift correction (m) to add at time `t`, from [`usable_drift`] pairs: linear in time
+/// between visits, constant before the first and after the last; zero without usable visits.
 pub fn drift_at_usable(usable: &[(i64, f64)], t: i64) -> f64 {
     match usable {
         [] => 0.0,

@@ -415,9 +415,6 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
                 for v in out.values.iter_mut() {
                     keep_vec(v, base, &remove);
                 }
-                let removed: Vec<u32> = (0..n_lines as u32).filter(|k| remove[*k as usize]).collect();
-                out.unreadable
-                    .retain(|(l, _)| !removed.contains(&(l - first_line as u32)));
             }
         }
         line_no += n_lines;

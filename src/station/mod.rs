@@ -209,6 +209,8 @@ pub struct Station {
     pub datum: Option<String>,
     /// Where it was read from.
     pub source: String,
+    /// SHA-256 of the station file's text, hex (for provenance and the field sheet).
+    pub sha256: String,
     /// The file's length unit.
     pub length_unit: LengthUnit,
     /// The structure, ready for [`crate::rating::RatingModel::new`].
@@ -933,6 +935,10 @@ impl Ctx<'_> {
             name,
             datum: raw.datum.as_ref().map(|d| d.get_ref().trim().to_string()),
             source: self.file.to_string(),
+            sha256: {
+                use sha2::Digest;
+                format!("{:x}", sha2::Sha256::digest(self.text.as_bytes()))
+            },
             length_unit: unit,
             structure: Structure {
                 control: control_section,
