@@ -12,13 +12,13 @@ use flumerate::rating::fit_power_law;
 use flumerate::report::plot::{hydrograph, HydroBuckets};
 use flumerate::report::{sig, wrap, CAUTIONS};
 use flumerate::series::convert::{
-    local_days, nominal_interval_ms, order_counts, time_note_lines, Conversion, Counts, Flag, StageSource, Summaries,
+    nominal_interval_ms, order_counts, time_note_lines, Conversion, Counts, Flag, StageSource, Summaries,
 };
 use flumerate::series::correct::{drift_points, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use flumerate::series::dense::DenseRating;
 use flumerate::series::output::{write_summary, SeriesWriter, TableFile};
 use flumerate::series::read::{read_logger, ColumnRef, ReadSettings};
-use flumerate::series::time::{parse_any, resolve, TimeFormat, Zone, NO_TIME};
+use flumerate::series::time::{parse_any, resolve, resolve_in_place, TimeFormat, Zone, NO_TIME};
 use flumerate::station::LoggerSpec;
 use flumerate::tailwater::{Exit, Tailwater};
 use flumerate::uncertainty::{GumModel, Inputs};
@@ -354,10 +354,8 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     bar.set_position(0);
 
     // 2. times
-    let wall = std::mem::take(&mut raw.wall_ms);
-    let (utc, notes) = resolve(&s.zone, &wall);
-    let days = local_days(&wall);
-    drop(wall);
+    let mut utc = std::mem::take(&mut raw.wall_ms);
+    let (days, notes) = resolve_in_place(&s.zone, &mut utc);
     let (backwards, duplicates) = order_counts(&utc);
     let interval_ms = nominal_interval_ms(&utc).context("fewer than two readings with a time: nothing to convert")?;
     let interval_s = interval_ms as f64 / 1000.0;
@@ -473,6 +471,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         .filter(|t| **t != NO_TIME)
         .fold((i64::MAX, i64::MIN), |(lo, hi), &t| (lo.min(t), hi.max(t)));
     let mut buckets = HydroBuckets::new(t_min, t_max, 1100);
+    let empty_buckets = buckets.clone();
     let mut counts = Counts::default();
     let mut summaries = Summaries::default();
     let writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
@@ -500,43 +499,47 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         // the chunk's rows are converted on all cores; each part keeps its own counts and
         // summaries, merged in order afterwards, so the result does not depend on the cores
         let per = idx.len().div_ceil(threads).max(1);
-        let parts: Vec<(flumerate::series::convert::Chunk, Counts, Summaries)> = std::thread::scope(|scope| {
-            let handles: Vec<_> = idx
-                .chunks(per)
-                .map(|part| {
-                    let (conv, utc, days, raw, inputs) = (&conv, &utc, &days, &raw, &inputs);
-                    scope.spawn(move || {
-                        let (mut c, mut sm) = (Counts::default(), Summaries::default());
-                        let chunk =
-                            conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
-                        (chunk, c, sm)
+        let parts: Vec<(flumerate::series::convert::Chunk, Counts, Summaries, HydroBuckets)> =
+            std::thread::scope(|scope| {
+                let handles: Vec<_> = idx
+                    .chunks(per)
+                    .map(|part| {
+                        let (conv, utc, days, raw, inputs) = (&conv, &utc, &days, &raw, &inputs);
+                        let mut b = empty_buckets.clone();
+                        scope.spawn(move || {
+                            let (mut c, mut sm) = (Counts::default(), Summaries::default());
+                            let chunk =
+                                conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
+                            for k in 0..chunk.line.len() {
+                                if chunk.time_ms[k] != NO_TIME {
+                                    b.add(
+                                        chunk.time_ms[k],
+                                        chunk.discharge_m3s[k],
+                                        chunk.low_m3s[k],
+                                        chunk.high_m3s[k],
+                                        !chunk.flag[k].counted(),
+                                    );
+                                }
+                            }
+                            (chunk, c, sm, b)
+                        })
                     })
-                })
-                .collect();
-            handles
-                .into_iter()
-                .map(|h| h.join().expect("conversion does not panic"))
-                .collect()
-        });
+                    .collect();
+                handles
+                    .into_iter()
+                    .map(|h| h.join().expect("conversion does not panic"))
+                    .collect()
+            });
+        timer.mark("  convert");
         let mut stopped = false;
-        for (chunk, c, sm) in parts {
+        for (chunk, c, sm, b) in parts {
             counts.merge(c);
             summaries.merge(sm);
-            for k in 0..chunk.line.len() {
-                if chunk.time_ms[k] != NO_TIME {
-                    buckets.add(
-                        chunk.time_ms[k],
-                        chunk.discharge_m3s[k],
-                        chunk.low_m3s[k],
-                        chunk.high_m3s[k],
-                        !chunk.flag[k].counted(),
-                    );
-                }
-            }
+            buckets.merge(&b);
             // a closed queue means the writer stopped on an error, reported below
             stopped |= tx.send(chunk).is_err();
         }
-        timer.mark("  chunk");
+        timer.mark("  send");
         bar.set_position(end as u64);
         if stopped {
             break;
@@ -553,6 +556,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         .finish()
         .with_context(|| format!("finishing {}", a.output.display()))?;
     bar.finish_and_clear();
+    timer.mark("writer finished");
     let rows_out = counts.per_flag.iter().sum::<usize>();
     debug_assert_eq!(rows_out, n, "every row is written once");
 
@@ -565,6 +569,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     if let Some(p) = &a.monthly {
         write_summary(p, "month", &monthly).with_context(|| format!("writing {}", p.display()))?;
     }
+    timer.mark("summaries");
     if let (Some(p), Some(fmt)) = (&a.plot, plot_format) {
         let offset = s.zone.offset_at_utc(t_min);
         let clock = format!(
@@ -576,6 +581,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         let bytes = hydrograph(&buckets, &format!("{}: discharge", station.name), &clock, offset, fmt)?;
         write_atomic(p, &bytes)?;
     }
+    timer.mark("plot");
     let flag_counts: serde_json::Map<String, serde_json::Value> = Flag::ALL
         .iter()
         .zip(counts.per_flag)
@@ -652,7 +658,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     prov_bytes.push(b'\n');
     write_atomic(&prov_path, &prov_bytes)?;
 
-    timer.mark("summaries, plot, record");
+    timer.mark("provenance");
     // 7. the report
     let mut r = String::new();
     r.push_str(&format!(

@@ -238,6 +238,18 @@ impl HydroBuckets {
         }
     }
 
+    /// Adds the rows gathered by another set of buckets over the same span.
+    pub fn merge(&mut self, o: &HydroBuckets) {
+        debug_assert!(self.t0_ms == o.t0_ms && self.sum.len() == o.sum.len());
+        for k in 0..self.sum.len() {
+            self.sum[k] += o.sum[k];
+            self.n[k] += o.n[k];
+            self.lo[k] = self.lo[k].min(o.lo[k]);
+            self.hi[k] = self.hi[k].max(o.hi[k]);
+            self.flagged[k] |= o.flagged[k];
+        }
+    }
+
     /// Adds one row: discharge and band (NaN when unknown), and whether its flag is a warning.
     pub fn add(&mut self, t_ms: i64, q: f64, lo: f64, hi: f64, flagged: bool) {
         let k = (((t_ms - self.t0_ms) as f64 / self.width_ms) as usize).min(self.n.len() - 1);

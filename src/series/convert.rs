@@ -14,11 +14,11 @@ use std::collections::BTreeMap;
 
 use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
-use super::time::{civil_from_days, date_string, wall_day, TimeNote, NO_TIME};
+use super::time::{civil_from_days, date_string, TimeNote, NO_TIME};
 use crate::rating::RatingModel;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_discharge_estimate_m3s, Tailwater};
-use crate::uncertainty::{reading_band, GumModel, Inputs, PeriodAccumulator, SeriesReading};
+use crate::uncertainty::{BandWeights, GumModel, Inputs, PeriodAccumulator, SeriesReading};
 
 /// One flag per row, most severe first.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
@@ -433,6 +433,7 @@ impl Conversion<'_> {
             line: Vec::with_capacity(n),
         };
         let model: &RatingModel = self.gum.model();
+        let weights = BandWeights::new(inputs);
         for &i in order {
             let t = utc[i];
             let (stage, no_baro, fallback) = self.stage_of(t, values, i);
@@ -469,7 +470,7 @@ impl Conversion<'_> {
                         duration_s: self.interval_s,
                         included: false,
                     };
-                    let (lo, hi) = reading_band(inputs, &rd);
+                    let (lo, hi) = weights.band(&rd);
                     band = (lo.max(0.0), hi);
                     flag = if head > self.range.max_head_m {
                         Flag::AboveRange
@@ -525,16 +526,6 @@ impl Conversion<'_> {
     }
 }
 
-/// Marks a row without a local day.
-pub const NO_DAY: i32 = i32::MIN;
-
-/// Local calendar days of the rows, from their wall-clock times.
-pub fn local_days(wall: &[i64]) -> Vec<i32> {
-    wall.iter()
-        .map(|&w| if w == NO_TIME { NO_DAY } else { wall_day(w) as i32 })
-        .collect()
-}
-
 /// Backward steps and repeated times among the rows' instants.
 pub fn order_counts(utc: &[i64]) -> (usize, usize) {
     let mut backwards = 0;
@@ -586,9 +577,9 @@ pub fn nominal_interval_ms(utc: &[i64]) -> Option<i64> {
 }
 
 /// Rows of the times: counts of each [`TimeNote`] with the lines of the notable ones.
-pub fn time_note_lines(notes: &[TimeNote], lines: &[u32]) -> BTreeMap<&'static str, Vec<u32>> {
+pub fn time_note_lines(notes: &[(usize, TimeNote)], lines: &[u32]) -> BTreeMap<&'static str, Vec<u32>> {
     let mut m: BTreeMap<&'static str, Vec<u32>> = BTreeMap::new();
-    for (n, l) in notes.iter().zip(lines) {
+    for (n, l) in notes.iter().map(|(i, n)| (n, &lines[*i])) {
         let key = match n {
             TimeNote::Ok => continue,
             TimeNote::Unparsed => "unparsed",

@@ -1,23 +1,30 @@
 //! Reading a logger export with polars, block by block, without losing a line.
 //!
-//! The file is read in blocks of whole lines; polars splits each block into fields (every column
-//! as text, quoting off, ragged lines tolerated), and flumerate parses the few columns it needs.
-//! With quoting off, polars returns exactly one row per line, so row *i* of a block is line
-//! *first + i* of the file; flumerate checks that count for every block and stops with an error
-//! rather than misalign rows. Blank lines are not records: they are counted and listed, not
-//! converted. Every other line becomes one row; a line whose time or value cannot be read becomes
-//! a row without them, and its line number is kept.
+//! The file is read in blocks of whole lines; polars splits each block into fields (quoting off,
+//! ragged lines tolerated), reads the value columns as numbers and hands the time column over as
+//! text, which flumerate parses with the station's formats. With quoting off, polars returns
+//! exactly one row per line, so row *i* of a block is line *first + i* of the file; flumerate
+//! checks that count for every block and stops with an error rather than misalign rows.
+//!
+//! Wherever polars has no finite number for a value (an empty field, a sentinel, text, or a
+//! number equal to a sentinel's), flumerate reads that field again from the line's own bytes with
+//! its own rule ([`parse_value`]), so every field is judged the same way whichever path it took.
+//! Blank lines are not records: they are counted and listed, not converted. Every other line
+//! becomes one row; a line whose time or value cannot be read becomes a row without them, and its
+//! line number is kept. The file's SHA-256 is computed on another thread from the same bytes.
 
 use std::io::{Cursor, Read};
 use std::path::Path;
 use std::sync::Arc;
 
 use polars::prelude::*;
+use polars_arrow::array::{Array as _, PrimitiveArray, Utf8ViewArray};
 
 use super::time::{parse_any, TimeFormat, NO_TIME};
 
-/// Bytes per block handed to polars.
-const BLOCK_BYTES: usize = 32 << 20;
+/// Bytes read from the file per block handed to polars (small in unit tests, so that their files
+/// cross block boundaries).
+const BLOCK_BYTES: usize = if cfg!(test) { 1 << 10 } else { 16 << 20 };
 
 /// A column chosen by name or by 1-based position.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -174,8 +181,9 @@ fn resolve(col: &ColumnRef, header: &[String], path: &str) -> Result<usize, Read
     })
 }
 
-/// Parses one numeric field.
-fn parse_value(s: &str, decimal_comma: bool, missing: &[String]) -> (f64, FieldState) {
+/// Parses one numeric field: white space around it ignored; empty, a missing-value text, or a
+/// finite decimal number (a decimal comma when asked); anything else is unreadable.
+pub fn parse_value(s: &str, decimal_comma: bool, missing: &[String]) -> (f64, FieldState) {
     let t = s.trim();
     if t.is_empty() {
         return (f64::NAN, FieldState::Empty);
@@ -194,6 +202,38 @@ fn parse_value(s: &str, decimal_comma: bool, missing: &[String]) -> (f64, FieldS
     }
 }
 
+/// Reads until `buf` holds `want` more bytes or the file ends; returns whether it ended.
+fn fill(file: &mut std::fs::File, buf: &mut Vec<u8>, want: usize) -> std::io::Result<bool> {
+    let target = buf.len() + want;
+    while buf.len() < target {
+        let len = buf.len();
+        buf.resize(target, 0);
+        match file.read(&mut buf[len..]) {
+            Ok(0) => {
+                buf.truncate(len);
+                return Ok(true);
+            }
+            Ok(n) => buf.truncate(len + n),
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => buf.truncate(len),
+            Err(e) => {
+                buf.truncate(len);
+                return Err(e);
+            }
+        }
+    }
+    Ok(false)
+}
+
+/// The columns of the file that are read, and how polars is asked to read them.
+struct Layout {
+    time_idx: usize,
+    value_idx: Vec<usize>,
+    schema: Arc<Schema>,
+    projection: Arc<Vec<usize>>,
+    /// Sentinels that are numbers: a value equal to one is looked at again as text.
+    sentinel_values: Vec<f64>,
+}
+
 /// Reads the logger file. `progress` is called with the bytes consumed so far.
 pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64)) -> Result<RawSeries, ReadError> {
     let p = path.display().to_string();
@@ -202,239 +242,123 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         source,
     };
     let mut file = std::fs::File::open(path).map_err(io)?;
+    let total_bytes = file.metadata().map_or(0, |m| m.len());
 
-    // preamble and header: read the first lines byte by byte from a small buffer
-    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK_BYTES + 4096);
-    let mut eof = false;
-    let mut consumed: u64 = 0;
-    // the file's hash is computed by a second reader in parallel (the page cache serves both)
-    let hash_path = path.to_path_buf();
-    let hashing = std::thread::spawn(move || -> std::io::Result<String> {
+    // the hash is computed on its own thread from the blocks as they are read, in file order
+    let (to_hash, hash_rx) = std::sync::mpsc::sync_channel::<(Arc<Vec<u8>>, usize)>(2);
+    let hashing = std::thread::spawn(move || {
         use sha2::Digest;
-        let mut f = std::fs::File::open(hash_path)?;
         let mut h = sha2::Sha256::new();
-        let mut b = vec![0u8; 1 << 20];
-        loop {
-            let n = f.read(&mut b)?;
-            if n == 0 {
-                break;
-            }
-            h.update(&b[..n]);
+        for (block, from) in hash_rx {
+            h.update(&block[from..]);
         }
-        Ok(format!("{:x}", h.finalize()))
+        format!("{:x}", h.finalize())
     });
-    let mut fill = |buf: &mut Vec<u8>, eof: &mut bool| -> Result<(), ReadError> {
-        while !*eof && buf.len() < BLOCK_BYTES {
-            let len = buf.len();
-            buf.resize(len + BLOCK_BYTES, 0);
-            let n = file.read(&mut buf[len..]).map_err(|source| ReadError::Io {
-                path: p.clone(),
-                source,
-            })?;
-            buf.truncate(len + n);
-            if n == 0 {
-                *eof = true;
-            }
-        }
-        Ok(())
-    };
-    fill(&mut buf, &mut eof)?;
-    let mut line_no: usize = 0;
-    let mut start = 0;
-    let take_line = |buf: &[u8], start: &mut usize| -> Option<String> {
-        if *start >= buf.len() {
-            return None;
-        }
-        let end = memchr::memchr(b'\n', &buf[*start..]).map_or(buf.len(), |i| *start + i + 1);
-        let line = String::from_utf8_lossy(&buf[*start..end]).to_string();
-        *start = end;
-        Some(line)
-    };
-    for _ in 0..s.skip_lines {
-        if take_line(&buf, &mut start).is_some() {
-            line_no += 1;
-        }
-    }
-    let header: Vec<String> = if s.has_header {
-        match take_line(&buf, &mut start) {
-            Some(l) => {
-                line_no += 1;
-                split_header(l.trim_start_matches('\u{feff}'), s.separator)
-            }
-            None => {
-                return Err(ReadError::NoRows {
-                    path: p.clone(),
-                    after: line_no,
-                })
-            }
-        }
-    } else {
-        // without a header the first data line tells how many columns there are
-        let first = buf[start..].split(|b| *b == b'\n').next().unwrap_or_default();
-        let n = String::from_utf8_lossy(first).split(s.separator as char).count();
-        (1..=n).map(|i| format!("column {i}")).collect()
-    };
-    let time_idx = resolve(&s.time, &header, &p)?;
-    let value_idx: Vec<usize> = s
-        .values
-        .iter()
-        .map(|c| resolve(c, &header, &p))
-        .collect::<Result<_, _>>()?;
-    let mut projection: Vec<usize> = std::iter::once(time_idx).chain(value_idx.iter().copied()).collect();
-    projection.sort_unstable();
-    projection.dedup();
-    let schema = Arc::new(Schema::from_iter(
-        (0..header.len()).map(|i| Field::new(format!("c{i}").into(), DataType::String)),
-    ));
 
     let mut out = RawSeries {
-        header: header.clone(),
-        values: vec![Vec::new(); value_idx.len()],
-        empty_fields: vec![0; value_idx.len()],
-        sentinel_fields: vec![0; value_idx.len()],
+        values: vec![Vec::new(); s.values.len()],
+        empty_fields: vec![0; s.values.len()],
+        sentinel_fields: vec![0; s.values.len()],
         ..Default::default()
     };
-    buf.drain(..start);
-    consumed += start as u64;
-    let total_bytes = std::fs::metadata(path).map_or(0, |m| m.len());
+    let mut layout: Option<Layout> = None;
+    let mut line_no: usize = 0;
+    let mut file_pos: u64 = 0;
+    let mut carry: Vec<u8> = Vec::new();
     loop {
-        fill(&mut buf, &mut eof)?;
-        if buf.is_empty() {
-            break;
+        let mut buf = Vec::with_capacity(carry.len() + BLOCK_BYTES);
+        buf.extend_from_slice(&carry);
+        let fresh = buf.len();
+        let eof = fill(&mut file, &mut buf, BLOCK_BYTES).map_err(io)?;
+        let buf = Arc::new(buf);
+        // a closed channel means the hashing thread died; its join below reports it
+        let _ = to_hash.send((buf.clone(), fresh));
+        file_pos += (buf.len() - fresh) as u64;
+        let mut start = 0;
+        if layout.is_none() {
+            {
+                // preamble and header: the first lines of the first block
+                if !eof && memchr::memchr_iter(b'\n', &buf).count() <= s.skip_lines + usize::from(s.has_header) {
+                    // not even the header fits yet: read on
+                    carry = buf.to_vec();
+                    continue;
+                }
+                let mut take_line = || -> Option<String> {
+                    if start >= buf.len() {
+                        return None;
+                    }
+                    let end = memchr::memchr(b'\n', &buf[start..]).map_or(buf.len(), |i| start + i + 1);
+                    let line = String::from_utf8_lossy(&buf[start..end]).to_string();
+                    start = end;
+                    Some(line)
+                };
+                for _ in 0..s.skip_lines {
+                    if take_line().is_some() {
+                        line_no += 1;
+                    }
+                }
+                let header: Vec<String> = if s.has_header {
+                    match take_line() {
+                        Some(l) => {
+                            line_no += 1;
+                            split_header(l.trim_start_matches('\u{feff}'), s.separator)
+                        }
+                        None => {
+                            return Err(ReadError::NoRows {
+                                path: p.clone(),
+                                after: line_no,
+                            })
+                        }
+                    }
+                } else {
+                    // without a header the first data line tells how many columns there are
+                    let first = buf[start..].split(|b| *b == b'\n').next().unwrap_or_default();
+                    let n = String::from_utf8_lossy(first).split(s.separator as char).count();
+                    (1..=n).map(|i| format!("column {i}")).collect()
+                };
+                layout = Some(make_layout(&header, s, &p)?);
+                out.header = header;
+                if total_bytes > 0 {
+                    // reserve for the whole file from the first block's bytes per line
+                    let lines = memchr::memchr_iter(b'\n', &buf[start..]).count().max(1);
+                    let per_line = (buf.len() - start) as f64 / lines as f64;
+                    let estimate = (total_bytes as f64 / per_line * 1.02) as usize;
+                    out.lines.reserve(estimate);
+                    out.wall_ms.reserve(estimate);
+                    for v in out.values.iter_mut() {
+                        v.reserve(estimate);
+                    }
+                }
+            }
         }
-        // a block ends at its last newline (or at the end of the file)
+        let layout = layout.as_ref().expect("set from the first block");
+        // the block ends at its last newline (or at the end of the file)
         let end = if eof {
             buf.len()
         } else {
-            match memchr::memrchr(b'\n', &buf) {
-                Some(i) => i + 1,
-                None => buf.len(),
-            }
-        };
-        let block = &buf[..end];
-        let first_line = line_no + 1;
-        let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
-        let df = CsvReadOptions::default()
-            .with_has_header(false)
-            .with_schema(Some(schema.clone()))
-            .with_projection(Some(Arc::new(projection.clone())))
-            .map_parse_options(|o| {
-                o.with_separator(s.separator)
-                    .with_quote_char(None)
-                    .with_missing_is_null(false)
-                    .with_truncate_ragged_lines(true)
-                    .with_encoding(CsvEncoding::LossyUtf8)
-            })
-            .into_reader_with_file_handle(Cursor::new(block))
-            .finish()
-            .map_err(|e| ReadError::Polars {
-                path: p.clone(),
-                from: first_line,
-                to: first_line + n_lines.saturating_sub(1),
-                message: e.to_string(),
-            })?;
-        if df.height() != n_lines {
-            return Err(ReadError::Polars {
-                path: p.clone(),
-                from: first_line,
-                to: first_line + n_lines.saturating_sub(1),
-                message: format!(
-                    "{} rows for {} lines; refusing to guess which line is which",
-                    df.height(),
-                    n_lines
-                ),
-            });
-        }
-        let col = |idx: usize| -> Result<Chunks, ReadError> {
-            df.column(&format!("c{idx}"))
-                .and_then(|c| c.str().cloned())
-                .map(|c| Chunks::new(&c))
-                .map_err(|e| ReadError::Polars {
-                    path: p.clone(),
-                    from: first_line,
-                    to: first_line + n_lines,
-                    message: e.to_string(),
-                })
-        };
-        let times = col(time_idx)?;
-        let vals: Vec<Chunks> = value_idx.iter().map(|&i| col(i)).collect::<Result<_, _>>()?;
-        if out.lines.is_empty() && total_bytes > end as u64 {
-            // reserve for the whole file from the first block's bytes per line
-            let estimate = (total_bytes as f64 / end as f64 * n_lines as f64 * 1.02) as usize;
-            out.lines.reserve(estimate);
-            out.wall_ms.reserve(estimate);
-            for v in out.values.iter_mut() {
-                v.reserve(estimate);
-            }
-        }
-        let rows: Vec<u32> = (0..n_lines as u32).collect();
-        let base = out.lines.len();
-        out.lines.extend(rows.iter().map(|k| first_line as u32 + k));
-        out.wall_ms.resize(base + n_lines, NO_TIME);
-        for v in out.values.iter_mut() {
-            v.resize(base + n_lines, f64::NAN);
-        }
-        let tally = parse_block(
-            &rows,
-            &times,
-            &vals,
-            s,
-            &mut out.wall_ms[base..],
-            out.values.iter_mut().map(|v| &mut v[base..]).collect(),
-        );
-        let mut candidates: Vec<u32> = Vec::new();
-        for t in tally {
-            out.empty_times += t.empty_times;
-            for c in 0..value_idx.len() {
-                out.empty_fields[c] += t.empty[c];
-                out.sentinel_fields[c] += t.sentinel[c];
-            }
-            out.unreadable
-                .extend(t.problems.into_iter().map(|(k, p)| (first_line as u32 + k, p)));
-            candidates.extend(t.all_empty);
-        }
-        // a row whose fields are all white space may be a blank line: look at its bytes, and
-        // take blank lines out (they are not records; they are counted)
-        if !candidates.is_empty() {
-            let mut starts = Vec::with_capacity(n_lines + 1);
-            starts.push(0);
-            starts.extend(memchr::memchr_iter(b'\n', block).map(|i| i + 1));
-            starts.push(block.len() + 1);
-            let mut remove = vec![false; n_lines];
-            for &k in &candidates {
-                let k = k as usize;
-                let line = &block[starts[k]..starts[k + 1].saturating_sub(1).max(starts[k])];
-                if line.iter().all(|b| b.is_ascii_whitespace()) {
-                    remove[k] = true;
-                    out.blank_lines.push((first_line + k) as u32);
+            match memchr::memrchr(b'\n', &buf[start..]) {
+                Some(i) => start + i + 1,
+                None => {
+                    // one line longer than a block: read on
+                    carry = buf[start..].to_vec();
+                    continue;
                 }
             }
-            if remove.iter().any(|r| *r) {
-                keep_vec(&mut out.lines, base, &remove);
-                keep_vec(&mut out.wall_ms, base, &remove);
-                for v in out.values.iter_mut() {
-                    keep_vec(v, base, &remove);
-                }
-            }
+        };
+        if end > start {
+            line_no = read_block(&buf[start..end], line_no, layout, s, &p, &mut out)?;
         }
-        line_no += n_lines;
-        consumed += end as u64;
-        progress(consumed);
-        buf.drain(..end);
-        if eof && buf.is_empty() {
+        progress(file_pos - (buf.len() - end) as u64);
+        if eof {
             break;
         }
+        carry = buf[end..].to_vec();
     }
-    out.sha256 = hashing
-        .join()
-        .map_err(|_| ReadError::Io {
-            path: p.clone(),
-            source: std::io::Error::other("hashing thread failed"),
-        })?
-        .map_err(|source| ReadError::Io {
-            path: p.clone(),
-            source,
-        })?;
+    drop(to_hash);
+    out.sha256 = hashing.join().map_err(|_| ReadError::Io {
+        path: p.clone(),
+        source: std::io::Error::other("hashing thread failed"),
+    })?;
     if out.lines.is_empty() {
         return Err(ReadError::NoRows {
             path: p.clone(),
@@ -442,6 +366,220 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         });
     }
     Ok(out)
+}
+
+fn make_layout(header: &[String], s: &ReadSettings, p: &str) -> Result<Layout, ReadError> {
+    let time_idx = resolve(&s.time, header, p)?;
+    let value_idx: Vec<usize> = s
+        .values
+        .iter()
+        .map(|c| resolve(c, header, p))
+        .collect::<Result<_, _>>()?;
+    let mut projection: Vec<usize> = std::iter::once(time_idx).chain(value_idx.iter().copied()).collect();
+    projection.sort_unstable();
+    projection.dedup();
+    let schema = Arc::new(Schema::from_iter((0..header.len()).map(|i| {
+        let numeric = value_idx.contains(&i) && i != time_idx;
+        Field::new(
+            format!("c{i}").into(),
+            if numeric { DataType::Float64 } else { DataType::String },
+        )
+    })));
+    let sentinel_values = s
+        .missing
+        .iter()
+        .filter_map(|m| match parse_value(m, s.decimal_comma, &[]) {
+            (v, FieldState::Ok) => Some(v),
+            _ => None,
+        })
+        .collect();
+    Ok(Layout {
+        time_idx,
+        value_idx,
+        schema,
+        projection: Arc::new(projection),
+        sentinel_values,
+    })
+}
+
+/// What one thread found in its share of a block's rows (indices within the block).
+#[derive(Default)]
+struct Share {
+    empty_times: usize,
+    /// Rows whose time did not parse.
+    time_failed: Vec<u32>,
+    /// Rows with a value polars did not give as a finite, non-sentinel number.
+    recheck: Vec<u32>,
+}
+
+/// Reads one block of whole lines (the first is line `before + 1`) into `out`; returns the
+/// number of the block's last line.
+fn read_block(
+    block: &[u8],
+    before: usize,
+    layout: &Layout,
+    s: &ReadSettings,
+    p: &str,
+    out: &mut RawSeries,
+) -> Result<usize, ReadError> {
+    let first_line = before + 1;
+    let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
+    let polars_error = |message: String| ReadError::Polars {
+        path: p.to_string(),
+        from: first_line,
+        to: first_line + n_lines.saturating_sub(1),
+        message,
+    };
+    let df = CsvReadOptions::default()
+        .with_has_header(false)
+        .with_schema(Some(layout.schema.clone()))
+        .with_projection(Some(layout.projection.clone()))
+        .with_ignore_errors(true)
+        .map_parse_options(|o| {
+            o.with_separator(s.separator)
+                .with_quote_char(None)
+                .with_missing_is_null(false)
+                .with_truncate_ragged_lines(true)
+                .with_decimal_comma(s.decimal_comma)
+                .with_encoding(CsvEncoding::LossyUtf8)
+        })
+        .into_reader_with_file_handle(Cursor::new(block))
+        .finish()
+        .map_err(|e| polars_error(e.to_string()))?;
+    if df.height() != n_lines {
+        return Err(polars_error(format!(
+            "{} rows for {} lines; refusing to guess which line is which",
+            df.height(),
+            n_lines
+        )));
+    }
+    let column = |idx: usize| df.column(&format!("c{idx}")).map_err(|e| polars_error(e.to_string()));
+    let times: Vec<Utf8ViewArray> = column(layout.time_idx)?
+        .str()
+        .map_err(|e| polars_error(e.to_string()))?
+        .downcast_iter()
+        .cloned()
+        .collect();
+    let values: Vec<Vec<PrimitiveArray<f64>>> = layout
+        .value_idx
+        .iter()
+        .map(|&i| {
+            let c = column(i)?;
+            let ca = c.f64().map_err(|e| polars_error(e.to_string()))?;
+            Ok(ca.downcast_iter().cloned().collect())
+        })
+        .collect::<Result<_, ReadError>>()?;
+
+    let base = out.lines.len();
+    out.lines.extend((0..n_lines as u32).map(|k| first_line as u32 + k));
+    out.wall_ms.resize(base + n_lines, NO_TIME);
+    for v in out.values.iter_mut() {
+        v.resize(base + n_lines, f64::NAN);
+    }
+    let shares = {
+        let wall = &mut out.wall_ms[base..];
+        let vals: Vec<&mut [f64]> = out.values.iter_mut().map(|v| &mut v[base..]).collect();
+        parse_rows(&times, &values, layout, s, wall, vals)
+    };
+
+    // rows polars could not settle: read their fields again from the line's bytes
+    let mut empty_times = 0;
+    let mut time_failed: Vec<u32> = Vec::new();
+    let mut recheck: Vec<u32> = Vec::new();
+    for sh in shares {
+        empty_times += sh.empty_times;
+        time_failed.extend(sh.time_failed);
+        recheck.extend(sh.recheck);
+    }
+    out.empty_times += empty_times;
+    if time_failed.is_empty() && recheck.is_empty() {
+        return Ok(before + n_lines);
+    }
+    let mut starts = Vec::with_capacity(n_lines + 1);
+    starts.push(0);
+    starts.extend(memchr::memchr_iter(b'\n', block).map(|i| i + 1));
+    if starts.len() == n_lines {
+        starts.push(block.len());
+    }
+    let line_text = |k: usize| -> &[u8] {
+        let l = &block[starts[k]..starts[k + 1]];
+        let l = l.strip_suffix(b"\n").unwrap_or(l);
+        l.strip_suffix(b"\r").unwrap_or(l)
+    };
+    let field = |k: usize, idx: usize| -> String {
+        let text = line_text(k).split(|b| *b == s.separator).nth(idx).unwrap_or_default();
+        String::from_utf8_lossy(text).into_owned()
+    };
+    let mut rows: Vec<u32> = time_failed.iter().chain(&recheck).copied().collect();
+    rows.sort_unstable();
+    rows.dedup();
+    let mut remove = vec![false; 0];
+    for &k in &rows {
+        let k = k as usize;
+        let time_bad = time_failed.binary_search(&(k as u32)).is_ok();
+        let time_text = if time_bad {
+            field(k, layout.time_idx)
+        } else {
+            String::new()
+        };
+        let empty_time = time_bad && time_text.trim().is_empty();
+        let mut bad: Option<String> = None;
+        let mut all_empty = empty_time;
+        for (c, &idx) in layout.value_idx.iter().enumerate() {
+            let v = out.values[c][base + k];
+            let st = if v.is_finite() && !layout.sentinel_values.contains(&v) {
+                FieldState::Ok
+            } else {
+                let raw = field(k, idx);
+                let (v, st) = parse_value(&raw, s.decimal_comma, &s.missing);
+                out.values[c][base + k] = v;
+                match st {
+                    FieldState::Empty => out.empty_fields[c] += 1,
+                    FieldState::Sentinel => out.sentinel_fields[c] += 1,
+                    FieldState::Unreadable => {
+                        let msg = format!("value #{} \"{}\" is not a number", c + 1, raw.trim());
+                        bad = Some(bad.map_or(msg.clone(), |b| format!("{b}; {msg}")));
+                    }
+                    FieldState::Ok => {}
+                }
+                st
+            };
+            all_empty &= st == FieldState::Empty;
+        }
+        // a row whose fields are all empty may be a blank line: blank lines are not records
+        if all_empty && line_text(k).iter().all(|b| b.is_ascii_whitespace()) {
+            if remove.is_empty() {
+                remove = vec![false; n_lines];
+            }
+            remove[k] = true;
+            out.blank_lines.push((first_line + k) as u32);
+            // a blank line was counted as a row with an empty time and empty values: undo
+            out.empty_times -= 1;
+            for c in 0..layout.value_idx.len() {
+                out.empty_fields[c] -= 1;
+            }
+            continue;
+        }
+        if time_bad && !all_empty {
+            let msg = if empty_time {
+                "empty time".to_string()
+            } else {
+                format!("time \"{}\" matches no format", time_text.trim())
+            };
+            bad = Some(bad.map_or(msg.clone(), |b| format!("{msg}; {b}")));
+        }
+        if let Some(b) = bad {
+            out.unreadable.push(((first_line + k) as u32, b));
+        }
+    }
+    if !remove.is_empty() {
+        keep_vec(&mut out.lines, base, &remove);
+        keep_vec(&mut out.wall_ms, base, &remove);
+        for v in out.values.iter_mut() {
+            keep_vec(v, base, &remove);
+        }
+    }
+    Ok(before + n_lines)
 }
 
 /// Drops the entries at `base + i` for every `remove[i]`.
@@ -454,137 +592,221 @@ fn keep_vec<T>(v: &mut Vec<T>, base: usize, remove: &[bool]) {
     });
 }
 
-/// A text column of a block as polars returned it (possibly in several chunks), read by row.
-struct Chunks {
-    arrays: Vec<polars_arrow::array::Utf8ViewArray>,
-    /// Row index at which each array starts, and the total at the end.
-    starts: Vec<usize>,
+/// Rows `from..to` of a column that polars returned in several arrays, in order.
+fn rows_of<A: polars_arrow::array::Array + Clone>(
+    arrays: &[A],
+    from: usize,
+    to: usize,
+) -> impl Iterator<Item = (A, usize, usize)> + '_ {
+    let mut at = 0;
+    arrays.iter().filter_map(move |a| {
+        let len = a.len();
+        let (lo, hi) = (from.max(at), to.min(at + len));
+        let start = at;
+        at += len;
+        (lo < hi).then(|| (a.clone(), lo - start, hi - start))
+    })
 }
 
-impl Chunks {
-    fn new(ca: &StringChunked) -> Self {
-        let arrays: Vec<_> = ca.downcast_iter().cloned().collect();
-        let mut starts = Vec::with_capacity(arrays.len() + 1);
-        let mut at = 0;
-        for a in &arrays {
-            starts.push(at);
-            at += polars_arrow::array::Array::len(a);
-        }
-        starts.push(at);
-        Self { arrays, starts }
-    }
-
-    /// The text of row `k` ("" for a null).
-    fn get(&self, k: usize) -> &str {
-        let c = self.starts.partition_point(|&s| s <= k) - 1;
-        let a = &self.arrays[c];
-        let i = k - self.starts[c];
-        if polars_arrow::array::Array::is_null(a, i) {
-            ""
-        } else {
-            a.value(i)
-        }
-    }
-}
-
-/// Counts and problems of one thread's share of a block.
-#[derive(Default)]
-struct Tally {
-    empty_times: usize,
-    empty: Vec<usize>,
-    sentinel: Vec<usize>,
-    problems: Vec<(u32, String)>,
-    /// Rows whose time and values are all empty or white space (blank-line candidates).
-    all_empty: Vec<u32>,
-}
-
-/// Parses the rows of a block (indices `rows`, already without blank lines) into `wall` and
-/// `values` (one slice per value column, each `rows.len()` long), on all cores.
-fn parse_block(
-    rows: &[u32],
-    times: &Chunks,
-    vals: &[Chunks],
+/// Parses the time texts and takes over the values of a block's rows into `wall` and `values`
+/// (one slice per value column), on all cores; returns what each thread found.
+fn parse_rows(
+    times: &[Utf8ViewArray],
+    values: &[Vec<PrimitiveArray<f64>>],
+    layout: &Layout,
     s: &ReadSettings,
     wall: &mut [i64],
-    values: Vec<&mut [f64]>,
-) -> Vec<Tally> {
-    let (tarr, varrs) = (times, vals);
-    let threads = std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 8);
-    let parallel = threads > 1 && rows.len() >= 50_000;
-    let per = if parallel {
-        rows.len().div_ceil(threads)
+    values_out: Vec<&mut [f64]>,
+) -> Vec<Share> {
+    let n = wall.len();
+    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    let per = if threads > 1 && n >= 50_000 {
+        n.div_ceil(threads)
     } else {
-        rows.len()
+        n
     }
     .max(1);
-    // split every output slice into the same per-thread pieces
-    let mut value_parts: Vec<Vec<&mut [f64]>> = (0..rows.len().div_ceil(per)).map(|_| Vec::new()).collect();
-    for v in values {
+    let mut value_parts: Vec<Vec<&mut [f64]>> = (0..n.div_ceil(per)).map(|_| Vec::new()).collect();
+    for v in values_out {
         for (i, piece) in v.chunks_mut(per).enumerate() {
             value_parts[i].push(piece);
         }
     }
-    let work = |rows: &[u32], wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Tally {
-        let mut t = Tally {
-            empty: vec![0; varrs.len()],
-            sentinel: vec![0; varrs.len()],
-            ..Default::default()
-        };
-        for (j, &k) in rows.iter().enumerate() {
-            let k = k as usize;
-            let text = tarr.get(k);
-            let parsed = parse_any(&s.formats, text);
-            let empty_time = text.trim().is_empty();
-            t.empty_times += usize::from(empty_time);
-            wall[j] = parsed.unwrap_or(NO_TIME);
-            let mut bad: Option<String> = None;
-            let mut all_empty = empty_time;
-            for (c, arr) in varrs.iter().enumerate() {
-                let raw = arr.get(k);
-                let (v, st) = parse_value(raw, s.decimal_comma, &s.missing);
-                vs[c][j] = v;
-                match st {
-                    FieldState::Empty => t.empty[c] += 1,
-                    FieldState::Sentinel => t.sentinel[c] += 1,
-                    FieldState::Unreadable => {
-                        let msg = format!("value #{} \"{}\" is not a number", c + 1, raw.trim());
-                        bad = Some(bad.map_or(msg.clone(), |b| format!("{b}; {msg}")));
+    let work = |from: usize, wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Share {
+        let to = from + wall.len();
+        let mut sh = Share::default();
+        let mut j = 0;
+        for (a, lo, hi) in rows_of(times, from, to) {
+            for i in lo..hi {
+                let text = if a.is_valid(i) { a.value(i) } else { "" };
+                match parse_any(&s.formats, text) {
+                    Some(w) => wall[j] = w,
+                    None => {
+                        wall[j] = NO_TIME;
+                        sh.empty_times += usize::from(text.trim().is_empty());
+                        sh.time_failed.push((from + j) as u32);
                     }
-                    FieldState::Ok => {}
                 }
-                all_empty &= st == FieldState::Empty;
-            }
-            if all_empty {
-                t.all_empty.push(k as u32);
-            }
-            if parsed.is_none() && !all_empty {
-                let msg = if empty_time {
-                    "empty time".to_string()
-                } else {
-                    format!("time \"{}\" matches no format", text.trim())
-                };
-                bad = Some(bad.map_or(msg.clone(), |b| format!("{msg}; {b}")));
-            }
-            if let Some(b) = bad {
-                t.problems.push((k as u32, b));
+                j += 1;
             }
         }
-        t
+        for (c, arrays) in values.iter().enumerate() {
+            let out = &mut vs[c];
+            let mut j = 0;
+            for (a, lo, hi) in rows_of(arrays, from, to) {
+                let vals = &a.values()[lo..hi];
+                match a.validity() {
+                    None => out[j..j + vals.len()].copy_from_slice(vals),
+                    Some(valid) => {
+                        for (k, &v) in vals.iter().enumerate() {
+                            out[j + k] = if valid.get_bit(lo + k) { v } else { f64::NAN };
+                        }
+                    }
+                }
+                j += vals.len();
+            }
+            for (k, &v) in out.iter().enumerate() {
+                if !v.is_finite() || (!layout.sentinel_values.is_empty() && layout.sentinel_values.contains(&v)) {
+                    sh.recheck.push((from + k) as u32);
+                }
+            }
+        }
+        sh.recheck.sort_unstable();
+        sh.recheck.dedup();
+        sh
     };
-    if !parallel {
+    if per >= n {
         let vs: Vec<&mut [f64]> = value_parts.into_iter().flatten().collect();
-        return vec![work(rows, wall, vs)];
+        return vec![work(0, wall, vs)];
     }
     std::thread::scope(|scope| {
-        let handles: Vec<_> = rows
-            .chunks(per)
-            .zip(wall.chunks_mut(per))
+        let handles: Vec<_> = wall
+            .chunks_mut(per)
             .zip(value_parts)
-            .map(|((r, w), vs)| scope.spawn(move || work(r, w, vs)))
+            .enumerate()
+            .map(|(i, (w, vs))| scope.spawn(move || work(i * per, w, vs)))
             .collect();
         handles
             .into_iter()
             .map(|h| h.join().expect("row parsing does not panic"))
             .collect()
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn settings(sep: u8, decimal_comma: bool) -> ReadSettings {
+        ReadSettings {
+            separator: sep,
+            decimal_comma,
+            skip_lines: 1,
+            has_header: true,
+            time: ColumnRef::Name("time".into()),
+            formats: vec![TimeFormat::new("%Y-%m-%d %H:%M")],
+            values: vec![ColumnRef::Name("stage".into()), ColumnRef::Position(3)],
+            missing: vec!["-9999".into(), "ERR".into()],
+        }
+    }
+
+    fn read_text(text: &str, s: &ReadSettings) -> RawSeries {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let path = dir.path().join("logger.csv");
+        std::fs::write(&path, text).expect("write");
+        read_logger(&path, s, |_| {}).expect("reads")
+    }
+
+    /// Every field is judged by `parse_value`, whether polars read it as a number or not: the
+    /// same text gives the same value and state on both paths (common practice, no source: the
+    /// reader's own contract).
+    #[test]
+    fn fields_polars_cannot_settle_are_judged_by_the_same_rule() {
+        let fields = [
+            "0.35", " 0.35", "0.35 ", "-9999", " -9999 ", "-9999.0", "ERR", "", "  ", "inf", "NaN", "12abc", "1e-1",
+            "+.5",
+        ];
+        let mut text = String::from("preamble line\ntime,stage,temp\n");
+        for (k, f) in fields.iter().enumerate() {
+            text.push_str(&format!("2026-01-01 00:{k:02},{f},{f}\n"));
+        }
+        let raw = read_text(&text, &settings(b',', false));
+        assert_eq!(raw.lines.len(), fields.len());
+        let mut unreadable = 0;
+        for (k, f) in fields.iter().enumerate() {
+            let (want, state) = parse_value(f, false, &["-9999".into(), "ERR".into()]);
+            for c in 0..2 {
+                let got = raw.values[c][k];
+                assert!(
+                    got == want || (got.is_nan() && want.is_nan()),
+                    "field {f:?} column {c}: {got} vs {want}"
+                );
+            }
+            unreadable += usize::from(state == FieldState::Unreadable);
+            assert_eq!(raw.lines[k], k as u32 + 3, "line numbers count the preamble and header");
+        }
+        // "-9999.0" is a number, not the sentinel text; " -9999 " is the sentinel
+        assert_eq!(raw.values[0][5], -9999.0);
+        assert!(raw.values[0][4].is_nan());
+        assert_eq!(raw.sentinel_fields, vec![3, 3]);
+        assert_eq!(raw.empty_fields, vec![2, 2]);
+        assert_eq!(raw.unreadable.len(), unreadable);
+        assert!(raw
+            .unreadable
+            .iter()
+            .any(|(l, m)| *l == 14 && m.contains("\"12abc\" is not a number")));
+    }
+
+    /// Many blocks (1 KiB each in unit tests), blank lines, CRLF, ragged and garbage lines: every
+    /// line is either a row or a listed blank line, in order, and the hash is the file's SHA-256
+    /// (FIPS 180-4, computed here independently with the sha2 crate over the whole file).
+    #[test]
+    fn rows_survive_block_boundaries_and_blank_lines_are_listed() {
+        use sha2::Digest;
+        let mut text = String::from("skip me\ntime;stage;temp\r\n");
+        let mut expected_blank = Vec::new();
+        for k in 0..600u32 {
+            let line = k + 3;
+            match k % 97 {
+                5 => {
+                    text.push_str("   \r\n");
+                    expected_blank.push(line);
+                }
+                6 => text.push_str("garbage without separators\n"),
+                7 => text.push_str("2026-01-01 00:00\n"),
+                _ => text.push_str(&format!(
+                    "2026-01-{:02} {:02}:{:02};{},{:03};4,5\r\n",
+                    1 + k / 1440,
+                    (k / 60) % 24,
+                    k % 60,
+                    k / 1000,
+                    k % 1000
+                )),
+            }
+        }
+        let s = ReadSettings {
+            separator: b';',
+            ..settings(b';', true)
+        };
+        let raw = read_text(&text, &s);
+        assert!(text.len() > 8 * BLOCK_BYTES, "the file spans many blocks");
+        assert_eq!(raw.blank_lines, expected_blank);
+        assert_eq!(raw.lines.len() + raw.blank_lines.len(), 600);
+        let mut all: Vec<u32> = raw.lines.iter().chain(&raw.blank_lines).copied().collect();
+        all.sort_unstable();
+        assert_eq!(all, (3..603).collect::<Vec<u32>>());
+        assert!(raw.lines.windows(2).all(|w| w[0] < w[1]), "rows keep file order");
+        for (i, &line) in raw.lines.iter().enumerate() {
+            let k = line - 3;
+            match k % 97 {
+                6 => assert!(raw.wall_ms[i] == NO_TIME && raw.values[0][i].is_nan()),
+                7 => assert!(raw.wall_ms[i] != NO_TIME && raw.values[0][i].is_nan()),
+                _ => {
+                    assert!((raw.values[0][i] - f64::from(k) / 1000.0).abs() < 1e-12, "line {line}");
+                    assert_eq!(raw.values[1][i], 4.5);
+                }
+            }
+        }
+        assert_eq!(raw.sha256, format!("{:x}", sha2::Sha256::digest(text.as_bytes())));
+    }
 }

@@ -331,20 +331,38 @@ pub enum TimeNote {
 pub const NO_TIME: i64 = i64::MIN;
 
 /// Maps local wall-clock times (ms, [`NO_TIME`] where unread) to UTC instants in file order with
-/// the daylight-saving rule of the module documentation. Local hours whose start and end map to
-/// the same offset are resolved once and reused, so long series cost little.
+/// the daylight-saving rule of the module documentation; returns the instants and one note per
+/// row. See [`resolve_in_place`], which this wraps.
 pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
-    let mut out = Vec::with_capacity(wall.len());
-    let mut notes = Vec::with_capacity(wall.len());
+    let mut utc = wall.to_vec();
+    let (_, sparse) = resolve_in_place(zone, &mut utc);
+    let mut notes = vec![TimeNote::Ok; wall.len()];
+    for (i, n) in sparse {
+        notes[i] = n;
+    }
+    (utc, notes)
+}
+
+/// Turns local wall-clock times (ms, [`NO_TIME`] where unread) into UTC instants in place, in
+/// file order, with the daylight-saving rule of the module documentation. Returns the local
+/// calendar day of every row (days since 1970-01-01, [`NO_DAY`] without a time) and the rows
+/// that needed a note, as (row, note); every row not listed resolved to one instant. Local hours
+/// whose start and end map to the same offset are resolved once and reused, so long series cost
+/// little.
+pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+    let mut days = Vec::with_capacity(times.len());
+    let mut notes = Vec::new();
     let mut cached: Option<(i64, i64)> = None; // (local hour, offset ms) of an unambiguous hour
     let mut prev_ambiguous: Option<i64> = None;
     let mut second_pass = false;
-    for &w in wall {
+    for (i, slot) in times.iter_mut().enumerate() {
+        let w = *slot;
         if w == NO_TIME {
-            out.push(NO_TIME);
-            notes.push(TimeNote::Unparsed);
+            days.push(NO_DAY);
+            notes.push((i, TimeNote::Unparsed));
             continue;
         }
+        days.push(wall_day(w) as i32);
         let hour = w.div_euclid(MS_PER_HOUR);
         let resolved = match (zone, cached) {
             (Zone::Fixed(s), _) => Resolved::Unique(w - i64::from(*s) * 1000),
@@ -360,16 +378,15 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
                 }
             }
         };
-        match resolved {
+        *slot = match resolved {
             Resolved::Unique(t) => {
                 prev_ambiguous = None;
                 second_pass = false;
-                out.push(t);
-                notes.push(TimeNote::Ok);
+                t
             }
             Resolved::Nonexistent => {
-                out.push(NO_TIME);
-                notes.push(TimeNote::Nonexistent);
+                notes.push((i, TimeNote::Nonexistent));
+                NO_TIME
             }
             Resolved::Ambiguous(early, late) => {
                 if prev_ambiguous.is_some_and(|p| w < p) {
@@ -377,17 +394,20 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
                 }
                 prev_ambiguous = Some(w);
                 if second_pass {
-                    out.push(late);
-                    notes.push(TimeNote::AmbiguousLater);
+                    notes.push((i, TimeNote::AmbiguousLater));
+                    late
                 } else {
-                    out.push(early);
-                    notes.push(TimeNote::AmbiguousEarlier);
+                    notes.push((i, TimeNote::AmbiguousEarlier));
+                    early
                 }
             }
-        }
+        };
     }
-    (out, notes)
+    (days, notes)
 }
+
+/// Marks a row without a local day.
+pub const NO_DAY: i32 = i32::MIN;
 
 /// Local calendar day (days since 1970-01-01 on the local clock) of a wall-clock time.
 pub fn wall_day(wall_ms: i64) -> i64 {

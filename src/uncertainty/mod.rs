@@ -14,4 +14,4 @@ pub mod series;
 pub use gum::{GumModel, GumPoint, COVERAGE_FACTOR};
 pub use inputs::{Input, Inputs, INPUT_NAMES};
 pub use mc::{departure_from_gum, monte_carlo, Emulator, McError, McOptions, McRow};
-pub use series::{period_uncertainty, reading_band, PeriodAccumulator, PeriodUncertainty, SeriesReading};
+pub use series::{period_uncertainty, reading_band, BandWeights, PeriodAccumulator, PeriodUncertainty, SeriesReading};

@@ -43,14 +43,39 @@ impl SeriesReading {
 
 /// The 95 % band of one reading's discharge: Q ± k·u_c with every input, systematic and random.
 pub fn reading_band(inputs: &Inputs, r: &SeriesReading) -> (f64, f64) {
-    let u = ((r.dq_dcoefficient * inputs.coefficient.standard).powi(2)
-        + (r.dq_ddimension * inputs.dimension.standard).powi(2)
-        + (r.dq_dhead * inputs.head_standard_m()).powi(2))
-    .sqrt();
-    (
-        r.discharge_m3s - COVERAGE_FACTOR * u,
-        r.discharge_m3s + COVERAGE_FACTOR * u,
-    )
+    BandWeights::new(inputs).band(r)
+}
+
+/// The inputs' standard uncertainties, taken once for the bands of many readings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BandWeights {
+    coefficient: f64,
+    dimension: f64,
+    head_m: f64,
+}
+
+impl BandWeights {
+    /// From the uncertainty inputs.
+    pub fn new(inputs: &Inputs) -> Self {
+        Self {
+            coefficient: inputs.coefficient.standard,
+            dimension: inputs.dimension.standard,
+            head_m: inputs.head_standard_m(),
+        }
+    }
+
+    /// Q ± k·u_c for one reading (JCGM 100 §5.1.2, uncorrelated inputs within the reading).
+    #[inline]
+    pub fn band(&self, r: &SeriesReading) -> (f64, f64) {
+        let u = ((r.dq_dcoefficient * self.coefficient).powi(2)
+            + (r.dq_ddimension * self.dimension).powi(2)
+            + (r.dq_dhead * self.head_m).powi(2))
+        .sqrt();
+        (
+            r.discharge_m3s - COVERAGE_FACTOR * u,
+            r.discharge_m3s + COVERAGE_FACTOR * u,
+        )
+    }
 }
 
 /// Volume over a period and its standard uncertainty, split by input.

@@ -265,7 +265,7 @@ fn parquet_output_and_plot_are_written() {
     let png = dir.path().join("hydro.png");
     flumerate()
         .arg("convert")
-        .arg(data("clean.csv"))
+        .arg(data("messy.csv"))
         .arg("--station")
         .arg(data("station.toml"))
         .arg("-o")
@@ -277,7 +277,6 @@ fn parquet_output_and_plot_are_written() {
     let df = ParquetReader::new(std::fs::File::open(&out).expect("parquet"))
         .finish()
         .expect("read back");
-    assert_eq!(df.height(), 292);
     let names: Vec<String> = df.get_column_names().iter().map(|s| s.to_string()).collect();
     assert_eq!(
         names,
@@ -292,6 +291,51 @@ fn parquet_output_and_plot_are_written() {
             "line"
         ]
     );
+    // the same rows as the CSV output, value for value (nulls where the CSV is empty)
+    let (csv_out, o) = convert("messy.csv", "station.toml", dir.path(), &[]);
+    assert!(o.status.success());
+    let rows = read_rows(&csv_out);
+    assert_eq!(df.height(), rows.len());
+    let zone = match df.column("time").expect("time").dtype() {
+        DataType::Datetime(TimeUnit::Milliseconds, Some(tz)) => tz.to_string(),
+        other => panic!("time column is {other:?}"),
+    };
+    assert_eq!(zone, "Europe/Berlin");
+    let time_ms = df
+        .column("time")
+        .expect("time")
+        .datetime()
+        .expect("datetime")
+        .physical()
+        .clone();
+    let flags = df.column("flag").expect("flag").str().expect("text").clone();
+    let lines = df.column("line").expect("line").u32().expect("u32").clone();
+    for (k, row) in rows.iter().enumerate() {
+        let csv_time = &row["time"];
+        match time_ms.get(k) {
+            None => assert!(csv_time.is_empty(), "row {k}"),
+            Some(ms) => {
+                let t = chrono::DateTime::parse_from_rfc3339(csv_time).expect("rfc 3339");
+                assert_eq!(t.timestamp_millis(), ms, "row {k}");
+            }
+        }
+        for name in [
+            "stage_m",
+            "head_m",
+            "discharge_m3s",
+            "discharge_low_m3s",
+            "discharge_high_m3s",
+        ] {
+            let got = df.column(name).expect("column").f64().expect("f64").get(k);
+            let want = (!row[name].is_empty()).then(|| row[name].parse::<f64>().expect("number"));
+            assert_eq!(got, want, "row {k} {name}");
+        }
+        assert_eq!(flags.get(k), Some(row["flag"].as_str()), "row {k}");
+        assert_eq!(
+            lines.get(k).map(|l| l.to_string()).as_deref(),
+            Some(row["line"].as_str())
+        );
+    }
     assert_eq!(&std::fs::read(&png).expect("png")[..4], b"\x89PNG");
     let leftovers = std::fs::read_dir(dir.path()).expect("dir").filter(|e| {
         e.as_ref()
