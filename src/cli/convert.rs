@@ -27,7 +27,7 @@ use serde_json::json;
 use super::output::{emit, write_atomic};
 
 /// Rows per output chunk.
-const CHUNK_ROWS: usize = 1 << 19;
+const CHUNK_ROWS: usize = 1 << 18;
 /// Default time formats, tried in order.
 const DEFAULT_FORMATS: [&str; 4] = [
     "%Y-%m-%d %H:%M:%S",
@@ -510,17 +510,13 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
                             let (mut c, mut sm) = (Counts::default(), Summaries::default());
                             let chunk =
                                 conv.convert_rows(part, utc, days, &raw.values, &raw.lines, inputs, &mut c, &mut sm);
-                            for k in 0..chunk.line.len() {
-                                if chunk.time_ms[k] != NO_TIME {
-                                    b.add(
-                                        chunk.time_ms[k],
-                                        chunk.discharge_m3s[k],
-                                        chunk.low_m3s[k],
-                                        chunk.high_m3s[k],
-                                        !chunk.flag[k].counted(),
-                                    );
-                                }
-                            }
+                            b.add_rows(
+                                &chunk.time_ms,
+                                &chunk.discharge_m3s,
+                                &chunk.low_m3s,
+                                &chunk.high_m3s,
+                                |k| !chunk.flag[k].counted(),
+                            );
                             (chunk, c, sm, b)
                         })
                     })

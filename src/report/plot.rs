@@ -216,6 +216,8 @@ pub fn png_bytes(rgb: Vec<u8>, size: (u32, u32)) -> Result<Vec<u8>, PlotError> {
 pub struct HydroBuckets {
     t0_ms: i64,
     width_ms: f64,
+    /// 1 / width_ms
+    per_ms: f64,
     sum: Vec<f64>,
     n: Vec<u32>,
     lo: Vec<f64>,
@@ -230,6 +232,7 @@ impl HydroBuckets {
         Self {
             t0_ms,
             width_ms,
+            per_ms: 1.0 / width_ms,
             sum: vec![0.0; buckets],
             n: vec![0; buckets],
             lo: vec![f64::INFINITY; buckets],
@@ -252,16 +255,47 @@ impl HydroBuckets {
 
     /// Adds one row: discharge and band (NaN when unknown), and whether its flag is a warning.
     pub fn add(&mut self, t_ms: i64, q: f64, lo: f64, hi: f64, flagged: bool) {
-        let k = (((t_ms - self.t0_ms) as f64 / self.width_ms) as usize).min(self.n.len() - 1);
-        if flagged {
-            self.flagged[k] = true;
+        self.add_rows(&[t_ms], &[q], &[lo], &[hi], |_| flagged);
+    }
+
+    /// Adds many rows (times in ms, [`i64::MIN`] for none; discharges and bands; whether row k
+    /// is flagged). Rows in time order share buckets, so sums are kept in registers while the
+    /// bucket stays the same.
+    pub fn add_rows(&mut self, t_ms: &[i64], q: &[f64], lo: &[f64], hi: &[f64], flagged: impl Fn(usize) -> bool) {
+        let last = self.n.len() - 1;
+        let mut cur = usize::MAX;
+        let (mut sum, mut n, mut l, mut h, mut f) = (0.0, 0u32, f64::INFINITY, f64::NEG_INFINITY, false);
+        for k in 0..t_ms.len() {
+            if t_ms[k] == i64::MIN {
+                continue;
+            }
+            let b = (((t_ms[k] - self.t0_ms) as f64 * self.per_ms) as usize).min(last);
+            if b != cur {
+                if cur != usize::MAX {
+                    self.put(cur, sum, n, l, h, f);
+                }
+                (cur, sum, n, l, h, f) = (b, 0.0, 0, f64::INFINITY, f64::NEG_INFINITY, false);
+            }
+            let flag = flagged(k);
+            f |= flag;
+            if q[k].is_finite() && !flag {
+                sum += q[k];
+                n += 1;
+                l = l.min(lo[k]);
+                h = h.max(hi[k]);
+            }
         }
-        if q.is_finite() && !flagged {
-            self.sum[k] += q;
-            self.n[k] += 1;
-            self.lo[k] = self.lo[k].min(lo);
-            self.hi[k] = self.hi[k].max(hi);
+        if cur != usize::MAX {
+            self.put(cur, sum, n, l, h, f);
         }
+    }
+
+    fn put(&mut self, k: usize, sum: f64, n: u32, lo: f64, hi: f64, flagged: bool) {
+        self.sum[k] += sum;
+        self.n[k] += n;
+        self.lo[k] = self.lo[k].min(lo);
+        self.hi[k] = self.hi[k].max(hi);
+        self.flagged[k] |= flagged;
     }
 
     fn time(&self, k: f64, offset_s: i32) -> chrono::NaiveDateTime {

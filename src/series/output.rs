@@ -86,6 +86,9 @@ fn series_schema(tz: Option<TimeZone>) -> Schema {
 
 /// Validity of a float column: non-finite values become nulls (`None` when there are none).
 fn finite_validity(v: &[f64]) -> Option<Bitmap> {
+    if v.iter().all(|x| x.is_finite()) {
+        return None;
+    }
     let valid: Bitmap = v.iter().map(|x| x.is_finite()).collect();
     (valid.unset_bits() > 0).then_some(valid)
 }
@@ -173,8 +176,10 @@ impl ParquetSink {
 
     fn write(&mut self, c: Chunk) -> PolarsResult<()> {
         let height = c.line.len();
-        let time_valid: Bitmap = c.time_ms.iter().map(|t| *t != NO_TIME).collect();
-        let time_valid = (time_valid.unset_bits() > 0).then_some(time_valid);
+        let time_valid = c
+            .time_ms
+            .contains(&NO_TIME)
+            .then(|| c.time_ms.iter().map(|t| *t != NO_TIME).collect::<Bitmap>());
         let float = |v: Vec<f64>| -> Box<dyn Array> {
             let validity = finite_validity(&v);
             Box::new(PrimitiveArray::<f64>::from_vec(v).with_validity(validity))

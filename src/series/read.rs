@@ -20,7 +20,7 @@ use std::sync::Arc;
 use polars::prelude::*;
 use polars_arrow::array::{Array as _, PrimitiveArray, Utf8ViewArray};
 
-use super::time::{parse_any, TimeFormat, NO_TIME};
+use super::time::{parse_any_cached, DayCache, TimeFormat, NO_TIME};
 
 /// Bytes read from the file per block handed to polars (small in unit tests, so that their files
 /// cross block boundaries).
@@ -234,6 +234,75 @@ struct Layout {
     sentinel_values: Vec<f64>,
 }
 
+/// A block of the file as read: `bytes[..end]` are whole lines to parse; `bytes[end..]` open the
+/// next block. `at` is the file offset just past `end`.
+struct Block {
+    bytes: Arc<Vec<u8>>,
+    end: usize,
+    at: u64,
+    eof: bool,
+}
+
+/// Reads the file block by block on its own thread, a block ahead of the parsing, and hashes
+/// every byte once, in file order, as it goes.
+fn spawn_reader(
+    mut file: std::fs::File,
+) -> (
+    std::sync::mpsc::Receiver<std::io::Result<Block>>,
+    std::thread::JoinHandle<String>,
+) {
+    let (tx, rx) = std::sync::mpsc::sync_channel::<std::io::Result<Block>>(1);
+    let handle = std::thread::spawn(move || {
+        use sha2::Digest;
+        let mut hash = sha2::Sha256::new();
+        let mut carry: Vec<u8> = Vec::new();
+        let mut at: u64 = 0;
+        loop {
+            let mut buf = Vec::with_capacity(carry.len() + BLOCK_BYTES);
+            buf.extend_from_slice(&carry);
+            let fresh = buf.len();
+            let eof = match fill(&mut file, &mut buf, BLOCK_BYTES) {
+                Ok(eof) => eof,
+                Err(e) => {
+                    let _ = tx.send(Err(e));
+                    break;
+                }
+            };
+            at += (buf.len() - fresh) as u64;
+            let end = if eof {
+                buf.len()
+            } else {
+                match memchr::memrchr(b'\n', &buf) {
+                    Some(i) => i + 1,
+                    None => {
+                        // one line longer than a block: read on
+                        hash.update(&buf[fresh..]);
+                        carry = buf;
+                        continue;
+                    }
+                }
+            };
+            let bytes = Arc::new(buf);
+            let block = Block {
+                bytes: bytes.clone(),
+                end,
+                at: at - (bytes.len() - end) as u64,
+                eof,
+            };
+            if tx.send(Ok(block)).is_err() {
+                break; // the parser stopped on an error
+            }
+            hash.update(&bytes[fresh..]);
+            if eof {
+                break;
+            }
+            carry = bytes[end..].to_vec();
+        }
+        format!("{:x}", hash.finalize())
+    });
+    (rx, handle)
+}
+
 /// Reads the logger file. `progress` is called with the bytes consumed so far.
 pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64)) -> Result<RawSeries, ReadError> {
     let p = path.display().to_string();
@@ -241,19 +310,9 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         path: p.clone(),
         source,
     };
-    let mut file = std::fs::File::open(path).map_err(io)?;
+    let file = std::fs::File::open(path).map_err(io)?;
     let total_bytes = file.metadata().map_or(0, |m| m.len());
-
-    // the hash is computed on its own thread from the blocks as they are read, in file order
-    let (to_hash, hash_rx) = std::sync::mpsc::sync_channel::<(Arc<Vec<u8>>, usize)>(2);
-    let hashing = std::thread::spawn(move || {
-        use sha2::Digest;
-        let mut h = sha2::Sha256::new();
-        for (block, from) in hash_rx {
-            h.update(&block[from..]);
-        }
-        format!("{:x}", h.finalize())
-    });
+    let (blocks, reading) = spawn_reader(file);
 
     let mut out = RawSeries {
         values: vec![Vec::new(); s.values.len()],
@@ -263,102 +322,81 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     };
     let mut layout: Option<Layout> = None;
     let mut line_no: usize = 0;
-    let mut file_pos: u64 = 0;
-    let mut carry: Vec<u8> = Vec::new();
-    loop {
-        let mut buf = Vec::with_capacity(carry.len() + BLOCK_BYTES);
-        buf.extend_from_slice(&carry);
-        let fresh = buf.len();
-        let eof = fill(&mut file, &mut buf, BLOCK_BYTES).map_err(io)?;
-        let buf = Arc::new(buf);
-        // a closed channel means the hashing thread died; its join below reports it
-        let _ = to_hash.send((buf.clone(), fresh));
-        file_pos += (buf.len() - fresh) as u64;
+    let mut filled: usize = 0;
+    // before the header is found: the lines seen so far
+    let mut head: Vec<u8> = Vec::new();
+    for block in blocks {
+        let block = block.map_err(io)?;
+        let mut bytes: &[u8] = &block.bytes[..block.end];
         let mut start = 0;
         if layout.is_none() {
-            {
-                // preamble and header: the first lines of the first block
-                if !eof && memchr::memchr_iter(b'\n', &buf).count() <= s.skip_lines + usize::from(s.has_header) {
-                    // not even the header fits yet: read on
-                    carry = buf.to_vec();
-                    continue;
+            head.extend_from_slice(bytes);
+            if !block.eof && memchr::memchr_iter(b'\n', &head).count() <= s.skip_lines + usize::from(s.has_header) {
+                continue; // not even the header yet: read on
+            }
+            bytes = &head;
+            let mut take_line = || -> Option<String> {
+                if start >= bytes.len() {
+                    return None;
                 }
-                let mut take_line = || -> Option<String> {
-                    if start >= buf.len() {
-                        return None;
-                    }
-                    let end = memchr::memchr(b'\n', &buf[start..]).map_or(buf.len(), |i| start + i + 1);
-                    let line = String::from_utf8_lossy(&buf[start..end]).to_string();
-                    start = end;
-                    Some(line)
-                };
-                for _ in 0..s.skip_lines {
-                    if take_line().is_some() {
+                let end = memchr::memchr(b'\n', &bytes[start..]).map_or(bytes.len(), |i| start + i + 1);
+                let line = String::from_utf8_lossy(&bytes[start..end]).to_string();
+                start = end;
+                Some(line)
+            };
+            for _ in 0..s.skip_lines {
+                if take_line().is_some() {
+                    line_no += 1;
+                }
+            }
+            let header: Vec<String> = if s.has_header {
+                match take_line() {
+                    Some(l) => {
                         line_no += 1;
+                        split_header(l.trim_start_matches('\u{feff}'), s.separator)
+                    }
+                    None => {
+                        return Err(ReadError::NoRows {
+                            path: p.clone(),
+                            after: line_no,
+                        })
                     }
                 }
-                let header: Vec<String> = if s.has_header {
-                    match take_line() {
-                        Some(l) => {
-                            line_no += 1;
-                            split_header(l.trim_start_matches('\u{feff}'), s.separator)
-                        }
-                        None => {
-                            return Err(ReadError::NoRows {
-                                path: p.clone(),
-                                after: line_no,
-                            })
-                        }
-                    }
-                } else {
-                    // without a header the first data line tells how many columns there are
-                    let first = buf[start..].split(|b| *b == b'\n').next().unwrap_or_default();
-                    let n = String::from_utf8_lossy(first).split(s.separator as char).count();
-                    (1..=n).map(|i| format!("column {i}")).collect()
-                };
-                layout = Some(make_layout(&header, s, &p)?);
-                out.header = header;
-                if total_bytes > 0 {
-                    // reserve for the whole file from the first block's bytes per line
-                    let lines = memchr::memchr_iter(b'\n', &buf[start..]).count().max(1);
-                    let per_line = (buf.len() - start) as f64 / lines as f64;
-                    let estimate = (total_bytes as f64 / per_line * 1.02) as usize;
-                    out.lines.reserve(estimate);
-                    out.wall_ms.reserve(estimate);
-                    for v in out.values.iter_mut() {
-                        v.reserve(estimate);
-                    }
-                }
+            } else {
+                // without a header the first data line tells how many columns there are
+                let first = bytes[start..].split(|b| *b == b'\n').next().unwrap_or_default();
+                let n = String::from_utf8_lossy(first).split(s.separator as char).count();
+                (1..=n).map(|i| format!("column {i}")).collect()
+            };
+            layout = Some(make_layout(&header, s, &p)?);
+            out.header = header;
+            // room for the whole file, from the first block's bytes per line; zeroed memory is
+            // mapped lazily, so the parsing threads touch it first, in parallel
+            let lines = memchr::memchr_iter(b'\n', &bytes[start..]).count().max(1);
+            let per_line = (bytes.len() - start).max(1) as f64 / lines as f64;
+            let estimate = ((total_bytes as f64 / per_line) * 1.02) as usize + 16;
+            out.lines = vec![0; estimate];
+            out.wall_ms = vec![0; estimate];
+            for v in out.values.iter_mut() {
+                *v = vec![0.0; estimate];
             }
         }
         let layout = layout.as_ref().expect("set from the first block");
-        // the block ends at its last newline (or at the end of the file)
-        let end = if eof {
-            buf.len()
-        } else {
-            match memchr::memrchr(b'\n', &buf[start..]) {
-                Some(i) => start + i + 1,
-                None => {
-                    // one line longer than a block: read on
-                    carry = buf[start..].to_vec();
-                    continue;
-                }
-            }
-        };
-        if end > start {
-            line_no = read_block(&buf[start..end], line_no, layout, s, &p, &mut out)?;
+        if bytes.len() > start {
+            line_no = read_block(&bytes[start..], line_no, layout, s, &p, &mut out, &mut filled)?;
         }
-        progress(file_pos - (buf.len() - end) as u64);
-        if eof {
-            break;
-        }
-        carry = buf[end..].to_vec();
+        head = Vec::new();
+        progress(block.at);
     }
-    drop(to_hash);
-    out.sha256 = hashing.join().map_err(|_| ReadError::Io {
+    out.sha256 = reading.join().map_err(|_| ReadError::Io {
         path: p.clone(),
-        source: std::io::Error::other("hashing thread failed"),
+        source: std::io::Error::other("reading thread failed"),
     })?;
+    out.lines.truncate(filled);
+    out.wall_ms.truncate(filled);
+    for v in out.values.iter_mut() {
+        v.truncate(filled);
+    }
     if out.lines.is_empty() {
         return Err(ReadError::NoRows {
             path: p.clone(),
@@ -421,6 +459,7 @@ fn read_block(
     s: &ReadSettings,
     p: &str,
     out: &mut RawSeries,
+    filled: &mut usize,
 ) -> Result<usize, ReadError> {
     let first_line = before + 1;
     let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
@@ -470,17 +509,24 @@ fn read_block(
         })
         .collect::<Result<_, ReadError>>()?;
 
-    let base = out.lines.len();
-    out.lines.extend((0..n_lines as u32).map(|k| first_line as u32 + k));
-    out.wall_ms.resize(base + n_lines, NO_TIME);
-    for v in out.values.iter_mut() {
-        v.resize(base + n_lines, f64::NAN);
+    let base = *filled;
+    let top = base + n_lines;
+    if out.lines.len() < top {
+        // more lines than estimated: grow by a quarter
+        let len = top.max(out.lines.len() + out.lines.len() / 4);
+        out.lines.resize(len, 0);
+        out.wall_ms.resize(len, 0);
+        for v in out.values.iter_mut() {
+            v.resize(len, 0.0);
+        }
     }
     let shares = {
-        let wall = &mut out.wall_ms[base..];
-        let vals: Vec<&mut [f64]> = out.values.iter_mut().map(|v| &mut v[base..]).collect();
-        parse_rows(&times, &values, layout, s, wall, vals)
+        let lines = &mut out.lines[base..top];
+        let wall = &mut out.wall_ms[base..top];
+        let vals: Vec<&mut [f64]> = out.values.iter_mut().map(|v| &mut v[base..top]).collect();
+        parse_rows(&times, &values, layout, s, first_line as u32, lines, wall, vals)
     };
+    *filled = top;
 
     // rows polars could not settle: read their fields again from the line's bytes
     let mut empty_times = 0;
@@ -573,23 +619,26 @@ fn read_block(
         }
     }
     if !remove.is_empty() {
-        keep_vec(&mut out.lines, base, &remove);
-        keep_vec(&mut out.wall_ms, base, &remove);
+        let kept = compact(&mut out.lines[base..top], &remove);
+        compact(&mut out.wall_ms[base..top], &remove);
         for v in out.values.iter_mut() {
-            keep_vec(v, base, &remove);
+            compact(&mut v[base..top], &remove);
         }
+        *filled = base + kept;
     }
     Ok(before + n_lines)
 }
 
-/// Drops the entries at `base + i` for every `remove[i]`.
-fn keep_vec<T>(v: &mut Vec<T>, base: usize, remove: &[bool]) {
-    let mut i = 0;
-    v.retain(|_| {
-        let keep = i < base || !remove[i - base];
-        i += 1;
-        keep
-    });
+/// Moves the entries not marked in `remove` to the front of `v`, in order; returns how many.
+fn compact<T: Copy>(v: &mut [T], remove: &[bool]) -> usize {
+    let mut kept = 0;
+    for i in 0..v.len() {
+        if !remove[i] {
+            v[kept] = v[i];
+            kept += 1;
+        }
+    }
+    kept
 }
 
 /// Rows `from..to` of a column that polars returned in several arrays, in order.
@@ -609,12 +658,16 @@ fn rows_of<A: polars_arrow::array::Array + Clone>(
 }
 
 /// Parses the time texts and takes over the values of a block's rows into `wall` and `values`
-/// (one slice per value column), on all cores; returns what each thread found.
+/// (one slice per value column), numbering them from `first_line` in `lines`, on all cores;
+/// returns what each thread found.
+#[allow(clippy::too_many_arguments)]
 fn parse_rows(
     times: &[Utf8ViewArray],
     values: &[Vec<PrimitiveArray<f64>>],
     layout: &Layout,
     s: &ReadSettings,
+    first_line: u32,
+    lines: &mut [u32],
     wall: &mut [i64],
     values_out: Vec<&mut [f64]>,
 ) -> Vec<Share> {
@@ -632,14 +685,18 @@ fn parse_rows(
             value_parts[i].push(piece);
         }
     }
-    let work = |from: usize, wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Share {
+    let work = |from: usize, lines: &mut [u32], wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Share {
         let to = from + wall.len();
+        for (k, l) in lines.iter_mut().enumerate() {
+            *l = first_line + (from + k) as u32;
+        }
         let mut sh = Share::default();
+        let mut caches = vec![DayCache::default(); s.formats.len()];
         let mut j = 0;
         for (a, lo, hi) in rows_of(times, from, to) {
             for i in lo..hi {
                 let text = if a.is_valid(i) { a.value(i) } else { "" };
-                match parse_any(&s.formats, text) {
+                match parse_any_cached(&s.formats, text, &mut caches) {
                     Some(w) => wall[j] = w,
                     None => {
                         wall[j] = NO_TIME;
@@ -677,14 +734,15 @@ fn parse_rows(
     };
     if per >= n {
         let vs: Vec<&mut [f64]> = value_parts.into_iter().flatten().collect();
-        return vec![work(0, wall, vs)];
+        return vec![work(0, lines, wall, vs)];
     }
     std::thread::scope(|scope| {
-        let handles: Vec<_> = wall
+        let handles: Vec<_> = lines
             .chunks_mut(per)
+            .zip(wall.chunks_mut(per))
             .zip(value_parts)
             .enumerate()
-            .map(|(i, (w, vs))| scope.spawn(move || work(i * per, w, vs)))
+            .map(|(i, ((l, w), vs))| scope.spawn(move || work(i * per, l, w, vs)))
             .collect();
         handles
             .into_iter()
@@ -738,7 +796,7 @@ mod tests {
             for c in 0..2 {
                 let got = raw.values[c][k];
                 assert!(
-                    got == want || (got.is_nan() && want.is_nan()),
+                    got.to_bits() == want.to_bits() || (got.is_nan() && want.is_nan()),
                     "field {f:?} column {c}: {got} vs {want}"
                 );
             }
@@ -746,7 +804,7 @@ mod tests {
             assert_eq!(raw.lines[k], k as u32 + 3, "line numbers count the preamble and header");
         }
         // "-9999.0" is a number, not the sentinel text; " -9999 " is the sentinel
-        assert_eq!(raw.values[0][5], -9999.0);
+        assert!((raw.values[0][5] + 9999.0).abs() < 1e-12);
         assert!(raw.values[0][4].is_nan());
         assert_eq!(raw.sentinel_fields, vec![3, 3]);
         assert_eq!(raw.empty_fields, vec![2, 2]);
@@ -803,7 +861,7 @@ mod tests {
                 7 => assert!(raw.wall_ms[i] != NO_TIME && raw.values[0][i].is_nan()),
                 _ => {
                     assert!((raw.values[0][i] - f64::from(k) / 1000.0).abs() < 1e-12, "line {line}");
-                    assert_eq!(raw.values[1][i], 4.5);
+                    assert!((raw.values[1][i] - 4.5).abs() < 1e-12);
                 }
             }
         }

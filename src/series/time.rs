@@ -85,6 +85,139 @@ enum Tok {
 pub struct TimeFormat {
     text: String,
     fast: Option<Vec<Tok>>,
+    /// For formats of fixed width (no `%.f`): where each field and literal sits when every
+    /// number has its full width, as most logger exports write them.
+    fixed: Option<Fixed>,
+}
+
+/// A fixed-width layout: total length, numeric fields (token, position, width) and literals.
+#[derive(Debug, Clone, PartialEq)]
+struct Fixed {
+    len: usize,
+    fields: Vec<(Tok, usize, usize)>,
+    literals: Vec<(usize, u8)>,
+    /// When the date fields all come first: the bytes up to the first clock field, and how many
+    /// fields they hold.
+    date: Option<(usize, usize)>,
+}
+
+/// The last date read by a format, so that the rows of one day parse only their clock time.
+/// One per format and thread; see [`TimeFormat::parse_cached`].
+#[derive(Debug, Clone, Default)]
+pub struct DayCache {
+    prefix: [u8; 16],
+    len: usize,
+    day_ms: i64,
+}
+
+impl Fixed {
+    fn new(toks: &[Tok]) -> Option<Self> {
+        let (mut fields, mut literals, mut at) = (Vec::new(), Vec::new(), 0);
+        for t in toks {
+            let width = match t {
+                Tok::Year4 => 4,
+                Tok::Year2 | Tok::Month | Tok::Day | Tok::Hour | Tok::Minute | Tok::Second => 2,
+                Tok::Fraction => return None,
+                Tok::Lit(c) => {
+                    literals.push((at, *c));
+                    at += 1;
+                    continue;
+                }
+            };
+            fields.push((t.clone(), at, width));
+            at += width;
+        }
+        let is_date = |t: &Tok| matches!(t, Tok::Year4 | Tok::Year2 | Tok::Month | Tok::Day);
+        let date_fields = fields.iter().take_while(|f| is_date(&f.0)).count();
+        let date = (date_fields > 0 && !fields[date_fields..].iter().any(|f| is_date(&f.0))).then(|| {
+            let end = fields.get(date_fields).map_or(at, |f| f.1);
+            (end, date_fields)
+        });
+        let date = date.filter(|(end, _)| *end <= 16);
+        Some(Self {
+            len: at,
+            fields,
+            literals,
+            date,
+        })
+    }
+
+    /// The same result as the general parser for text laid out exactly so; `None` otherwise
+    /// (the general parser then decides). A row of the same date as the cache's reads only its
+    /// clock fields.
+    #[inline]
+    fn parse(&self, b: &[u8], cache: &mut DayCache) -> Option<i64> {
+        if b.len() != self.len || self.literals.iter().any(|&(p, c)| b[p] != c) {
+            return None;
+        }
+        if let Some((end, n)) = self.date {
+            if cache.len == end && b[..end] == cache.prefix[..end] {
+                let (mut h, mut mi, mut s) = (0u32, 0u32, 0u32);
+                for (t, p, w) in &self.fields[n..] {
+                    let v = Self::number(&b[*p..*p + *w])?;
+                    match t {
+                        Tok::Hour => h = v,
+                        Tok::Minute => mi = v,
+                        _ => s = v,
+                    }
+                }
+                if h > 23 || mi > 59 || s > 60 {
+                    return None;
+                }
+                return Some(cache.day_ms + ((i64::from(h) * 60 + i64::from(mi)) * 60 + i64::from(s)) * 1000);
+            }
+        }
+        let v = self.parse_all(b)?;
+        if let Some((end, _)) = self.date {
+            cache.prefix[..end].copy_from_slice(&b[..end]);
+            cache.len = end;
+            cache.day_ms = v - v.rem_euclid(MS_PER_DAY);
+        }
+        Some(v)
+    }
+
+    #[inline]
+    fn number(digits: &[u8]) -> Option<u32> {
+        let mut v = 0u32;
+        for &c in digits {
+            if !c.is_ascii_digit() {
+                return None;
+            }
+            v = v * 10 + u32::from(c - b'0');
+        }
+        Some(v)
+    }
+
+    fn parse_all(&self, b: &[u8]) -> Option<i64> {
+        let (mut y, mut mo, mut d, mut h, mut mi, mut s) = (1970i64, 1u32, 1u32, 0u32, 0u32, 0u32);
+        for (t, p, w) in &self.fields {
+            let mut v = 0u32;
+            for &c in &b[*p..*p + *w] {
+                if !c.is_ascii_digit() {
+                    return None;
+                }
+                v = v * 10 + u32::from(c - b'0');
+            }
+            match t {
+                Tok::Year4 => y = i64::from(v),
+                // POSIX strptime: 69–99 are 1969–1999, 00–68 are 2000–2068
+                Tok::Year2 => {
+                    y = if v >= 69 {
+                        1900 + i64::from(v)
+                    } else {
+                        2000 + i64::from(v)
+                    }
+                }
+                Tok::Month => mo = v,
+                Tok::Day => d = v,
+                Tok::Hour => h = v,
+                Tok::Minute => mi = v,
+                Tok::Second => s = v,
+                Tok::Fraction | Tok::Lit(_) => {}
+            }
+        }
+        wall_ms(y, mo, d, h, mi, s, 0)
+    }
 }
 
 impl TimeFormat {
@@ -121,9 +254,11 @@ impl TimeFormat {
                 i += 1;
             }
         }
+        let fixed = if fast { Fixed::new(&toks) } else { None };
         Self {
             text: text.to_string(),
             fast: fast.then_some(toks),
+            fixed,
         }
     }
 
@@ -134,6 +269,15 @@ impl TimeFormat {
 
     /// Parses `s` (surrounding white space ignored) to local wall-clock milliseconds.
     pub fn parse(&self, s: &str) -> Option<i64> {
+        self.parse_cached(s, &mut DayCache::default())
+    }
+
+    /// As [`TimeFormat::parse`], remembering the last date in `cache` (rows in file order mostly
+    /// share their date, which is then not read again).
+    pub fn parse_cached(&self, s: &str, cache: &mut DayCache) -> Option<i64> {
+        if let Some(v) = self.fixed.as_ref().and_then(|f| f.parse(s.as_bytes(), cache)) {
+            return Some(v);
+        }
         let s = s.trim();
         match &self.fast {
             Some(toks) => parse_fast(toks, s.as_bytes()),
@@ -213,6 +357,14 @@ fn parse_fast(toks: &[Tok], b: &[u8]) -> Option<i64> {
 /// Parses with the first format that fits.
 pub fn parse_any(formats: &[TimeFormat], s: &str) -> Option<i64> {
     formats.iter().find_map(|f| f.parse(s))
+}
+
+/// [`parse_any`] with one [`DayCache`] per format (`caches` as long as `formats`).
+pub fn parse_any_cached(formats: &[TimeFormat], s: &str, caches: &mut [DayCache]) -> Option<i64> {
+    formats
+        .iter()
+        .zip(caches.iter_mut())
+        .find_map(|(f, c)| f.parse_cached(s, c))
 }
 
 /// A time zone: a fixed offset or an IANA zone (tz database compiled in via chrono-tz).
@@ -450,6 +602,60 @@ mod tests {
             TimeFormat::new("%b %d %Y %H:%M").parse("Oct 27 2024 02:30"),
             Some(t - 15_000)
         );
+    }
+
+    /// The fixed-width shortcut gives what chrono's parser gives (general-purpose reference
+    /// library), and turns down nothing the general fast parser accepts.
+    #[test]
+    fn fixed_width_shortcut_agrees_with_chrono_and_the_general_parser() {
+        let texts = [
+            "2024-10-27 02:30",
+            "2024-02-29 23:59",
+            "2023-02-29 12:00",
+            "2024-13-01 00:00",
+            "2024-12-31 24:00",
+            "2024-1-05 07:00",
+            " 2024-10-27 02:30 ",
+            "2024-10-27T02:30",
+            "2024-10-27 02:3x",
+            "0999-01-01 00:00",
+            "27.10.24 02:30",
+            "01.01.70 00:00",
+            "01.01.68 00:00",
+        ];
+        // (two-digit years: "69" alone differs, POSIX strptime gives 1969 and chrono 2069;
+        // flumerate follows POSIX, as the parser's comment says)
+        for fmt in ["%Y-%m-%d %H:%M", "%d.%m.%y %H:%M"] {
+            let f = TimeFormat::new(fmt);
+            assert!(f.fixed.is_some(), "{fmt} has a fixed width");
+            let general = TimeFormat {
+                fixed: None,
+                ..f.clone()
+            };
+            for t in texts {
+                let ours = f.parse(t);
+                assert_eq!(ours, general.parse(t), "{fmt} {t:?}");
+                let chrono = NaiveDateTime::parse_from_str(t.trim(), fmt)
+                    .ok()
+                    .map(|d| d.and_utc().timestamp_millis());
+                if ours.is_some() {
+                    assert_eq!(ours, chrono, "{fmt} {t:?}");
+                }
+            }
+        }
+        assert!(TimeFormat::new("%Y-%m-%dT%H:%M:%S%.f").fixed.is_none());
+        // with a day cache, in sequence (same dates, a new date, bad clock fields): the same
+        for fmt in ["%Y-%m-%d %H:%M", "%d.%m.%y %H:%M", "%H:%M %Y-%m-%d"] {
+            let f = TimeFormat::new(fmt);
+            let mut cache = DayCache::default();
+            for t in texts
+                .iter()
+                .chain(&texts)
+                .chain(&["2024-10-27 23:59", "2024-10-27 24:00", "2024-10-27 1x:00"])
+            {
+                assert_eq!(f.parse_cached(t, &mut cache), f.parse(t), "{fmt} {t:?}");
+            }
+        }
     }
 
     #[test]
