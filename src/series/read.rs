@@ -225,6 +225,7 @@ fn fill(file: &mut std::fs::File, buf: &mut Vec<u8>, want: usize) -> std::io::Re
 }
 
 /// The columns of the file that are read, and how polars is asked to read them.
+#[derive(Debug, Clone)]
 struct Layout {
     time_idx: usize,
     value_idx: Vec<usize>,
@@ -325,69 +326,103 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     let mut filled: usize = 0;
     // before the header is found: the lines seen so far
     let mut head: Vec<u8> = Vec::new();
-    for block in blocks {
+    // the header, from the first block(s)
+    let mut first: Option<(Block, usize)> = None;
+    for block in &blocks {
         let block = block.map_err(io)?;
-        let mut bytes: &[u8] = &block.bytes[..block.end];
+        head.extend_from_slice(&block.bytes[..block.end]);
+        if !block.eof && memchr::memchr_iter(b'\n', &head).count() <= s.skip_lines + usize::from(s.has_header) {
+            continue; // not even the header yet: read on
+        }
+        let bytes: &[u8] = &head;
         let mut start = 0;
-        if layout.is_none() {
-            head.extend_from_slice(bytes);
-            if !block.eof && memchr::memchr_iter(b'\n', &head).count() <= s.skip_lines + usize::from(s.has_header) {
-                continue; // not even the header yet: read on
+        let mut take_line = || -> Option<String> {
+            if start >= bytes.len() {
+                return None;
             }
-            bytes = &head;
-            let mut take_line = || -> Option<String> {
-                if start >= bytes.len() {
-                    return None;
-                }
-                let end = memchr::memchr(b'\n', &bytes[start..]).map_or(bytes.len(), |i| start + i + 1);
-                let line = String::from_utf8_lossy(&bytes[start..end]).to_string();
-                start = end;
-                Some(line)
-            };
-            for _ in 0..s.skip_lines {
-                if take_line().is_some() {
+            let end = memchr::memchr(b'\n', &bytes[start..]).map_or(bytes.len(), |i| start + i + 1);
+            let line = String::from_utf8_lossy(&bytes[start..end]).to_string();
+            start = end;
+            Some(line)
+        };
+        for _ in 0..s.skip_lines {
+            if take_line().is_some() {
+                line_no += 1;
+            }
+        }
+        let header: Vec<String> = if s.has_header {
+            match take_line() {
+                Some(l) => {
                     line_no += 1;
+                    split_header(l.trim_start_matches('\u{feff}'), s.separator)
+                }
+                None => {
+                    return Err(ReadError::NoRows {
+                        path: p.clone(),
+                        after: line_no,
+                    })
                 }
             }
-            let header: Vec<String> = if s.has_header {
-                match take_line() {
-                    Some(l) => {
-                        line_no += 1;
-                        split_header(l.trim_start_matches('\u{feff}'), s.separator)
-                    }
-                    None => {
-                        return Err(ReadError::NoRows {
-                            path: p.clone(),
-                            after: line_no,
-                        })
-                    }
+        } else {
+            // without a header the first data line tells how many columns there are
+            let first = bytes[start..].split(|b| *b == b'\n').next().unwrap_or_default();
+            let n = String::from_utf8_lossy(first).split(s.separator as char).count();
+            (1..=n).map(|i| format!("column {i}")).collect()
+        };
+        layout = Some(make_layout(&header, s, &p)?);
+        out.header = header;
+        // room for the whole file, from the first block's bytes per line; zeroed memory is
+        // mapped lazily, so the parsing threads touch it first, in parallel
+        let lines = memchr::memchr_iter(b'\n', &bytes[start..]).count().max(1);
+        let per_line = (bytes.len() - start).max(1) as f64 / lines as f64;
+        let estimate = ((total_bytes as f64 / per_line) * 1.02) as usize + 16;
+        out.lines = vec![0; estimate];
+        out.wall_ms = vec![0; estimate];
+        for v in out.values.iter_mut() {
+            *v = vec![0.0; estimate];
+        }
+        first = Some((block, start));
+        break;
+    }
+    let Some(layout) = layout else {
+        return Err(ReadError::NoRows {
+            path: p.clone(),
+            after: line_no,
+        });
+    };
+    let (first, start) = first.expect("set with the layout");
+    if head.len() > start {
+        let split = split_block(&head[start..], &layout, s);
+        line_no = take_block(&head[start..], split, line_no, &layout, s, &p, &mut out, &mut filled)?;
+    }
+    drop(head);
+    progress(first.at);
+
+    // the rest: polars splits the next block on its own thread while this one is taken in
+    let layout = Arc::new(layout);
+    let (split_tx, splits) = std::sync::mpsc::sync_channel::<std::io::Result<(Block, (usize, Result<Split, String>))>>(1);
+    let splitting = {
+        let (layout, s) = (layout.clone(), s.clone());
+        std::thread::spawn(move || {
+            for block in blocks {
+                let item = block.map(|b| {
+                    let split = split_block(&b.bytes[..b.end], &layout, &s);
+                    (b, split)
+                });
+                let failed = item.is_err();
+                if split_tx.send(item).is_err() || failed {
+                    break;
                 }
-            } else {
-                // without a header the first data line tells how many columns there are
-                let first = bytes[start..].split(|b| *b == b'\n').next().unwrap_or_default();
-                let n = String::from_utf8_lossy(first).split(s.separator as char).count();
-                (1..=n).map(|i| format!("column {i}")).collect()
-            };
-            layout = Some(make_layout(&header, s, &p)?);
-            out.header = header;
-            // room for the whole file, from the first block's bytes per line; zeroed memory is
-            // mapped lazily, so the parsing threads touch it first, in parallel
-            let lines = memchr::memchr_iter(b'\n', &bytes[start..]).count().max(1);
-            let per_line = (bytes.len() - start).max(1) as f64 / lines as f64;
-            let estimate = ((total_bytes as f64 / per_line) * 1.02) as usize + 16;
-            out.lines = vec![0; estimate];
-            out.wall_ms = vec![0; estimate];
-            for v in out.values.iter_mut() {
-                *v = vec![0.0; estimate];
             }
-        }
-        let layout = layout.as_ref().expect("set from the first block");
-        if bytes.len() > start {
-            line_no = read_block(&bytes[start..], line_no, layout, s, &p, &mut out, &mut filled)?;
-        }
-        head = Vec::new();
+        })
+    };
+    for item in &splits {
+        let (block, split) = item.map_err(io)?;
+        line_no = take_block(&block.bytes[..block.end], split, line_no, &layout, s, &p, &mut out, &mut filled)?;
         progress(block.at);
     }
+    drop(splits);
+    let _ = splitting.join();
     out.sha256 = reading.join().map_err(|_| ReadError::Io {
         path: p.clone(),
         source: std::io::Error::other("reading thread failed"),
@@ -450,10 +485,66 @@ struct Share {
     recheck: Vec<u32>,
 }
 
-/// Reads one block of whole lines (the first is line `before + 1`) into `out`; returns the
-/// number of the block's last line.
-fn read_block(
+/// A block of whole lines as polars split it: the time texts and the value columns.
+struct Split {
+    times: Vec<Utf8ViewArray>,
+    values: Vec<Vec<PrimitiveArray<f64>>>,
+}
+
+/// Lets polars split a block of whole lines into fields; the error is polars' message.
+fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Result<Split, String>) {
+    let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
+    let split = || -> Result<Split, String> {
+        let df = CsvReadOptions::default()
+            .with_has_header(false)
+            .with_schema(Some(layout.schema.clone()))
+            .with_projection(Some(layout.projection.clone()))
+            .with_ignore_errors(true)
+            .map_parse_options(|o| {
+                o.with_separator(s.separator)
+                    .with_quote_char(None)
+                    .with_missing_is_null(false)
+                    .with_truncate_ragged_lines(true)
+                    .with_decimal_comma(s.decimal_comma)
+                    .with_encoding(CsvEncoding::LossyUtf8)
+            })
+            .into_reader_with_file_handle(Cursor::new(block))
+            .finish()
+            .map_err(|e| e.to_string())?;
+        if df.height() != n_lines {
+            return Err(format!(
+                "{} rows for {} lines; refusing to guess which line is which",
+                df.height(),
+                n_lines
+            ));
+        }
+        let column = |idx: usize| df.column(&format!("c{idx}")).map_err(|e| e.to_string());
+        let times: Vec<Utf8ViewArray> = column(layout.time_idx)?
+            .str()
+            .map_err(|e| e.to_string())?
+            .downcast_iter()
+            .cloned()
+            .collect();
+        let values: Vec<Vec<PrimitiveArray<f64>>> = layout
+            .value_idx
+            .iter()
+            .map(|&i| {
+                let c = column(i)?;
+                let ca = c.f64().map_err(|e| e.to_string())?;
+                Ok(ca.downcast_iter().cloned().collect())
+            })
+            .collect::<Result<_, String>>()?;
+        Ok(Split { times, values })
+    };
+    (n_lines, split())
+}
+
+/// Takes one block of whole lines (the first is line `before + 1`), as polars split it, into
+/// `out`; returns the number of the block's last line.
+#[allow(clippy::too_many_arguments)]
+fn take_block(
     block: &[u8],
+    split: (usize, Result<Split, String>),
     before: usize,
     layout: &Layout,
     s: &ReadSettings,
@@ -462,52 +553,13 @@ fn read_block(
     filled: &mut usize,
 ) -> Result<usize, ReadError> {
     let first_line = before + 1;
-    let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
-    let polars_error = |message: String| ReadError::Polars {
+    let (n_lines, split) = split;
+    let Split { times, values, .. } = split.map_err(|message| ReadError::Polars {
         path: p.to_string(),
         from: first_line,
         to: first_line + n_lines.saturating_sub(1),
         message,
-    };
-    let df = CsvReadOptions::default()
-        .with_has_header(false)
-        .with_schema(Some(layout.schema.clone()))
-        .with_projection(Some(layout.projection.clone()))
-        .with_ignore_errors(true)
-        .map_parse_options(|o| {
-            o.with_separator(s.separator)
-                .with_quote_char(None)
-                .with_missing_is_null(false)
-                .with_truncate_ragged_lines(true)
-                .with_decimal_comma(s.decimal_comma)
-                .with_encoding(CsvEncoding::LossyUtf8)
-        })
-        .into_reader_with_file_handle(Cursor::new(block))
-        .finish()
-        .map_err(|e| polars_error(e.to_string()))?;
-    if df.height() != n_lines {
-        return Err(polars_error(format!(
-            "{} rows for {} lines; refusing to guess which line is which",
-            df.height(),
-            n_lines
-        )));
-    }
-    let column = |idx: usize| df.column(&format!("c{idx}")).map_err(|e| polars_error(e.to_string()));
-    let times: Vec<Utf8ViewArray> = column(layout.time_idx)?
-        .str()
-        .map_err(|e| polars_error(e.to_string()))?
-        .downcast_iter()
-        .cloned()
-        .collect();
-    let values: Vec<Vec<PrimitiveArray<f64>>> = layout
-        .value_idx
-        .iter()
-        .map(|&i| {
-            let c = column(i)?;
-            let ca = c.f64().map_err(|e| polars_error(e.to_string()))?;
-            Ok(ca.downcast_iter().cloned().collect())
-        })
-        .collect::<Result<_, ReadError>>()?;
+    })?;
 
     let base = *filled;
     let top = base + n_lines;
