@@ -106,7 +106,8 @@ impl DenseRating {
             return None;
         }
         let x = head_m.sqrt() / self.dx;
-        let k = (x.floor() as usize).clamp(1, NODES - 2);
+        // x > 0 here, so truncation is the floor (and needs no call into libm)
+        let k = (x as usize).clamp(1, NODES - 2);
         let t = x - k as f64;
         let c = crate::interp::lagrange4(t);
         let mut v = [0.0; 6];
