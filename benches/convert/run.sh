@@ -25,11 +25,11 @@ bin="$target/flumerate"
 "$bin" rate benches/convert/bench-station.toml --from 0.0005 --to 0.825 --step 0.0005 --format csv -o "$work/rating.csv"
 
 size=$(stat -c %s "$data")
-best() { # best wall time (s) and its peak RSS (kB) of two runs; $1 = output file to remove first
+best() { # best wall time (s) and its peak RSS (kB) of two runs; $1 = output file to remove first ("" for none)
   local out=$1 b=999999 m=0
   shift
   for _ in 1 2; do
-    rm -f "$out"
+    if [ -n "$out" ]; then rm -f "$out"; fi
     sync
     /usr/bin/time -f "%e %M" -o "$work/t" "$@" > /dev/null 2> "$work/err" || { cat "$work/err"; exit 1; }
     read -r s k < "$work/t"
@@ -37,8 +37,8 @@ best() { # best wall time (s) and its peak RSS (kB) of two runs; $1 = output fil
   done
   echo "$b $m"
 }
-read -r t_read m_read < <(best /dev/null "$target/examples/polars_read_only" "$data")
-read -r t_dates m_dates < <(best /dev/null "$target/examples/polars_read_only" "$data" --dates)
+read -r t_read m_read < <(best "" "$target/examples/polars_read_only" "$data")
+read -r t_dates m_dates < <(best "" "$target/examples/polars_read_only" "$data" --dates)
 read -r t_pq m_pq < <(best "$work/out.parquet" "$bin" convert "$data" --station benches/convert/bench-station.toml -o "$work/out.parquet")
 read -r t_csv m_csv < <(best "$work/out.csv" "$bin" convert "$data" --station benches/convert/bench-station.toml -o "$work/out.csv")
 read -r t_pd m_pd < <(best "$work/pandas.parquet" python3 benches/convert/pandas_convert.py "$data" "$work/rating.csv" "$work/pandas.parquet")
