@@ -71,17 +71,35 @@ pub struct SeriesWriter {
     tz: Option<TimeZone>,
 }
 
+/// The float columns of a converted series, in output order (design.md): `time` comes before
+/// them, `flag` and `line` after.
+const FLOAT_COLUMNS: [&str; 5] = [
+    "stage_m",
+    "head_m",
+    "discharge_m3s",
+    "discharge_low_m3s",
+    "discharge_high_m3s",
+];
+
+/// A chunk's float columns, in the order of [`FLOAT_COLUMNS`].
+fn float_columns(c: &mut Chunk) -> [Vec<f64>; 5] {
+    [
+        std::mem::take(&mut c.stage_m),
+        std::mem::take(&mut c.head_m),
+        std::mem::take(&mut c.discharge_m3s),
+        std::mem::take(&mut c.low_m3s),
+        std::mem::take(&mut c.high_m3s),
+    ]
+}
+
 fn series_schema(tz: Option<TimeZone>) -> Schema {
-    Schema::from_iter([
-        Field::new("time".into(), DataType::Datetime(TimeUnit::Milliseconds, tz)),
-        Field::new("stage_m".into(), DataType::Float64),
-        Field::new("head_m".into(), DataType::Float64),
-        Field::new("discharge_m3s".into(), DataType::Float64),
-        Field::new("discharge_low_m3s".into(), DataType::Float64),
-        Field::new("discharge_high_m3s".into(), DataType::Float64),
+    let time = Field::new("time".into(), DataType::Datetime(TimeUnit::Milliseconds, tz));
+    let floats = FLOAT_COLUMNS.map(|n| Field::new(n.into(), DataType::Float64));
+    let rest = [
         Field::new("flag".into(), DataType::String),
         Field::new("line".into(), DataType::UInt32),
-    ])
+    ];
+    Schema::from_iter(std::iter::once(time).chain(floats).chain(rest))
 }
 
 /// Validity of a float column: non-finite values become nulls (`None` when there are none).
@@ -128,13 +146,7 @@ impl ParquetSink {
     fn new(file: File, tz: Option<&TimeZone>) -> PolarsResult<Self> {
         let time_type = ArrowDataType::Timestamp(ArrowTimeUnit::Millisecond, tz.map(|z| z.as_str().into()));
         let mut fields = vec![ArrowField::new("time".into(), time_type.clone(), true)];
-        for name in [
-            "stage_m",
-            "head_m",
-            "discharge_m3s",
-            "discharge_low_m3s",
-            "discharge_high_m3s",
-        ] {
+        for name in FLOAT_COLUMNS {
             fields.push(ArrowField::new(name.into(), ArrowDataType::Float64, true));
         }
         fields.push(ArrowField::new("flag".into(), ArrowDataType::Utf8View, false));
@@ -174,8 +186,9 @@ impl ParquetSink {
         Ok(out)
     }
 
-    fn write(&mut self, c: Chunk) -> PolarsResult<()> {
+    fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
         let height = c.line.len();
+        let floats = float_columns(&mut c);
         let time_valid = c
             .time_ms
             .contains(&NO_TIME)
@@ -191,20 +204,14 @@ impl ParquetSink {
             PrimitiveArray::<u8>::from_vec(keys),
             self.flag_words.clone().boxed(),
         )?;
-        let arrays: Vec<Box<dyn Array>> = vec![
-            Box::new(
-                PrimitiveArray::<i64>::from_vec(c.time_ms)
-                    .to(self.time_type.clone())
-                    .with_validity(time_valid),
-            ),
-            float(c.stage_m),
-            float(c.head_m),
-            float(c.discharge_m3s),
-            float(c.low_m3s),
-            float(c.high_m3s),
-            Box::new(flags),
-            Box::new(PrimitiveArray::<u32>::from_vec(c.line)),
-        ];
+        let mut arrays: Vec<Box<dyn Array>> = vec![Box::new(
+            PrimitiveArray::<i64>::from_vec(c.time_ms)
+                .to(self.time_type.clone())
+                .with_validity(time_valid),
+        )];
+        arrays.extend(floats.map(float));
+        arrays.push(Box::new(flags));
+        arrays.push(Box::new(PrimitiveArray::<u32>::from_vec(c.line)));
         // columns 0–3 on this thread, 4–7 on a helper: about the same bytes each
         let this = &*self;
         let pages: Vec<Vec<CompressedPage>> = std::thread::scope(|scope| {
@@ -263,29 +270,26 @@ impl SeriesWriter {
     }
 
     /// Appends one chunk (taking its columns without copying them).
-    pub fn write(&mut self, c: Chunk) -> PolarsResult<()> {
+    pub fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
         let w = match &mut self.inner {
             Inner::Csv(w) => w,
             Inner::Parquet(p) => return p.write(c),
         };
         let height = c.line.len();
+        let floats = float_columns(&mut c);
         let valid: Bitmap = c.time_ms.iter().map(|t| *t != NO_TIME).collect();
         let validity = (valid.unset_bits() > 0).then_some(valid);
         let time = Int64Chunked::from_vec_validity("time".into(), c.time_ms, validity)
             .into_datetime(TimeUnit::Milliseconds, self.tz.clone());
         let flag: StringChunked = c.flag.iter().map(|f| Some(f.as_str())).collect();
-        let cols = vec![
-            time.into_series().with_name("time".into()).into_column(),
-            opt("stage_m", c.stage_m),
-            opt("head_m", c.head_m),
-            opt("discharge_m3s", c.discharge_m3s),
-            opt("discharge_low_m3s", c.low_m3s),
-            opt("discharge_high_m3s", c.high_m3s),
-            flag.into_series().with_name("flag".into()).into_column(),
+        let mut cols = vec![time.into_series().with_name("time".into()).into_column()];
+        cols.extend(FLOAT_COLUMNS.into_iter().zip(floats).map(|(name, v)| opt(name, v)));
+        cols.push(flag.into_series().with_name("flag".into()).into_column());
+        cols.push(
             UInt32Chunked::from_vec("line".into(), c.line)
                 .into_series()
                 .into_column(),
-        ];
+        );
         w.write_batch(&DataFrame::new(height, cols)?)
     }
 
