@@ -501,20 +501,62 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
 /// that needed a note, as (row, note); every row not listed resolved to one instant. Local hours
 /// whose start and end map to the same offset are resolved once and reused, so long series cost
 /// little.
+///
+/// Long series are resolved in two halves at once. The second half starts at a row whose time
+/// maps to one instant: there the rule starts afresh in file order too, so the result is the
+/// same as in one pass (tested).
 pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
-    let mut days = Vec::with_capacity(times.len());
+    resolve_split(zone, times, 1 << 20)
+}
+
+fn resolve_split(zone: &Zone, times: &mut [i64], min_split: usize) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+    let two = std::thread::available_parallelism().is_ok_and(|t| t.get() > 1);
+    let mid = if two && times.len() >= min_split {
+        times.len() / 2
+    } else {
+        times.len()
+    };
+    resolve_from(zone, times, mid)
+}
+
+/// Resolves `times` in two halves, the second from the first row at or after `mid` that maps to
+/// one instant (in one pass when there is none).
+fn resolve_from(zone: &Zone, times: &mut [i64], mid: usize) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+    let n = times.len();
+    let mut days = vec![0i32; n];
+    let mut mid = mid;
+    while mid < n && !(times[mid] != NO_TIME && matches!(zone.resolve_exact(times[mid]), Resolved::Unique(_))) {
+        mid += 1;
+    }
+    if mid >= n {
+        let notes = resolve_part(zone, times, &mut days, 0);
+        return (days, notes);
+    }
+    let (ta, tb) = times.split_at_mut(mid);
+    let (da, db) = days.split_at_mut(mid);
+    let (mut notes, later) = std::thread::scope(|scope| {
+        let second = scope.spawn(|| resolve_part(zone, tb, db, mid));
+        let first = resolve_part(zone, ta, da, 0);
+        (first, second.join().expect("resolving times does not panic"))
+    });
+    notes.extend(later);
+    (days, notes)
+}
+
+fn resolve_part(zone: &Zone, times: &mut [i64], days: &mut [i32], first: usize) -> Vec<(usize, TimeNote)> {
     let mut notes = Vec::new();
     let mut cached: Option<(i64, i64)> = None; // (local hour, offset ms) of an unambiguous hour
     let mut prev_ambiguous: Option<i64> = None;
     let mut second_pass = false;
-    for (i, slot) in times.iter_mut().enumerate() {
+    for (k, (slot, day)) in times.iter_mut().zip(days.iter_mut()).enumerate() {
+        let i = first + k;
         let w = *slot;
         if w == NO_TIME {
-            days.push(NO_DAY);
+            *day = NO_DAY;
             notes.push((i, TimeNote::Unparsed));
             continue;
         }
-        days.push(wall_day(w) as i32);
+        *day = wall_day(w) as i32;
         let hour = w.div_euclid(MS_PER_HOUR);
         let resolved = match (zone, cached) {
             (Zone::Fixed(s), _) => Resolved::Unique(w - i64::from(*s) * 1000),
@@ -555,7 +597,7 @@ pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize
             }
         };
     }
-    (days, notes)
+    notes
 }
 
 /// Marks a row without a local day.
@@ -655,6 +697,43 @@ mod tests {
             {
                 assert_eq!(f.parse_cached(t, &mut cache), f.parse(t), "{fmt} {t:?}");
             }
+        }
+    }
+
+    /// Resolving in two halves gives what one pass gives, wherever the halves meet: a series
+    /// crossing both Europe/Berlin clock changes of 2024 (IANA tz database), with unread times,
+    /// split at every row.
+    #[test]
+    fn resolving_in_two_halves_equals_one_pass() {
+        let zone = Zone::parse("Europe/Berlin").expect("zone");
+        let f = TimeFormat::new("%Y-%m-%d %H:%M");
+        let mut wall: Vec<i64> = Vec::new();
+        for text in [
+            "2024-03-31 01:30",
+            "2024-03-31 02:00",
+            "2024-03-31 02:30",
+            "2024-03-31 03:00",
+            "2024-10-27 01:30",
+            "2024-10-27 02:00",
+            "2024-10-27 02:30",
+            "2024-10-27 02:00",
+            "2024-10-27 02:30",
+            "2024-10-27 03:00",
+            "2024-10-27 03:30",
+        ] {
+            wall.push(f.parse(text).expect("parses"));
+            wall.push(NO_TIME);
+        }
+        let mut one = wall.clone();
+        let mut days_one = vec![0; one.len()];
+        let notes_one = resolve_part(&zone, &mut one, &mut days_one, 0);
+        assert!(notes_one.iter().any(|n| n.1 == TimeNote::AmbiguousLater));
+        for mid in 0..=wall.len() {
+            let mut two = wall.clone();
+            let (days, notes) = resolve_from(&zone, &mut two, mid);
+            assert_eq!(two, one, "split at or after row {mid}");
+            assert_eq!(days, days_one, "split at or after row {mid}");
+            assert_eq!(notes, notes_one, "split at or after row {mid}");
         }
     }
 
