@@ -8,6 +8,11 @@ use std::process::ExitCode;
 
 use clap::Parser;
 
+/// mimalloc keeps freed memory for reuse instead of handing it back and faulting it in again,
+/// which the chunked conversion of long logger files does all the time.
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 fn main() -> ExitCode {
     let args = cli::Cli::parse();
     match cli::run(args) {

@@ -434,6 +434,7 @@ impl Conversion<'_> {
         };
         let model: &RatingModel = self.gum.model();
         let weights = BandWeights::new(inputs);
+        // 1. stage and head of every row
         for &i in order {
             let t = utc[i];
             let (stage, no_baro, fallback) = self.stage_of(t, values, i);
@@ -444,14 +445,54 @@ impl Conversion<'_> {
             } else {
                 drift_at_usable(&self.drift, t)
             };
-            let head = stage - self.zero_m + drift;
-            let (mut flag, mut q, mut band) = (Flag::Missing, f64::NAN, (f64::NAN, f64::NAN));
+            c.time_ms.push(t);
+            c.stage_m.push(stage);
+            c.head_m.push(stage - self.zero_m + drift);
+            c.line.push(lines[i]);
+        }
+        // 2. the rating and band of every head above the crest, in a tight loop over rows that
+        // do not depend on each other (so that the processor overlaps them)
+        let mut sens: Vec<[f64; 3]> = Vec::with_capacity(n);
+        let mut rated: Vec<bool> = Vec::with_capacity(n);
+        for k in 0..n {
+            let (t, head) = (c.time_ms[k], c.head_m[k]);
+            let r = if t != NO_TIME && head.is_finite() && head > 0.0 {
+                self.table.eval_core(head)
+            } else {
+                None
+            };
+            let (q, s3, band, ok) = match r {
+                Some(r) => {
+                    let rd = SeriesReading {
+                        discharge_m3s: r[0],
+                        dq_dcoefficient: r[1],
+                        dq_ddimension: r[2],
+                        dq_dhead: r[3],
+                        duration_s: self.interval_s,
+                        included: false,
+                    };
+                    let (lo, hi) = weights.band(&rd);
+                    (r[0], [r[1], r[2], r[3]], (lo.max(0.0), hi), true)
+                }
+                None => (f64::NAN, [f64::NAN; 3], (f64::NAN, f64::NAN), false),
+            };
+            c.discharge_m3s.push(q);
+            c.low_m3s.push(band.0);
+            c.high_m3s.push(band.1);
+            sens.push(s3);
+            rated.push(ok);
+        }
+        // 3. flags, the rare cases (above the table, drowned) and the summaries
+        for (k, &i) in order.iter().enumerate() {
+            let (t, head) = (c.time_ms[k], c.head_m[k]);
+            let mut flag = Flag::Missing;
             let mut reading: Option<SeriesReading> = None;
             if t != NO_TIME && head.is_finite() {
                 if head <= 0.0 {
                     flag = Flag::Dry;
-                    q = 0.0;
-                    band = (0.0, 0.0);
+                    c.discharge_m3s[k] = 0.0;
+                    c.low_m3s[k] = 0.0;
+                    c.high_m3s[k] = 0.0;
                     reading = Some(SeriesReading {
                         discharge_m3s: 0.0,
                         dq_dcoefficient: 0.0,
@@ -460,67 +501,83 @@ impl Conversion<'_> {
                         duration_s: self.interval_s,
                         included: true,
                     });
-                } else if let Some(r) = self.rated(head, counts, lines[i]) {
-                    q = r.discharge_m3s;
-                    let mut rd = SeriesReading {
-                        discharge_m3s: q,
-                        dq_dcoefficient: r.dq_dcoefficient,
-                        dq_ddimension: r.dq_ddimension,
-                        dq_dhead: r.dq_dhead,
-                        duration_s: self.interval_s,
-                        included: false,
-                    };
-                    let (lo, hi) = weights.band(&rd);
-                    band = (lo.max(0.0), hi);
-                    flag = if head > self.range.max_head_m {
-                        Flag::AboveRange
-                    } else if head < self.range.min_head_m {
-                        Flag::BelowRange
-                    } else {
-                        Flag::Ok
-                    };
-                    if let Some((k, per, zero)) = self.tailwater_column {
-                        let tw = values[k][i];
-                        if tw.is_finite() {
-                            let level = tw * per - zero;
-                            let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
-                            let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
-                            if s > r.modular_limit {
-                                flag = Flag::Submerged;
-                                let est = if self.submerged_estimate {
-                                    submerged_discharge_estimate_m3s(model, q, s, r.modular_limit, self.exponent)
-                                } else {
-                                    None
-                                };
-                                match est {
-                                    Some(e) => {
-                                        let ratio = e / q;
-                                        band = (band.0 * ratio, band.1 * ratio);
-                                        q = e;
-                                        counts.submerged_estimated += 1;
+                } else {
+                    let exact = if rated[k] { None } else { self.rated(head, counts, c.line[k]) };
+                    if let Some(r) = exact {
+                        // above the dense table: the model itself
+                        let rd = SeriesReading {
+                            discharge_m3s: r.discharge_m3s,
+                            dq_dcoefficient: r.dq_dcoefficient,
+                            dq_ddimension: r.dq_ddimension,
+                            dq_dhead: r.dq_dhead,
+                            duration_s: self.interval_s,
+                            included: false,
+                        };
+                        let (lo, hi) = weights.band(&rd);
+                        c.discharge_m3s[k] = r.discharge_m3s;
+                        c.low_m3s[k] = lo.max(0.0);
+                        c.high_m3s[k] = hi;
+                        sens[k] = [r.dq_dcoefficient, r.dq_ddimension, r.dq_dhead];
+                    }
+                    if rated[k] || exact.is_some() {
+                        let mut q = c.discharge_m3s[k];
+                        flag = if head > self.range.max_head_m {
+                            Flag::AboveRange
+                        } else if head < self.range.min_head_m {
+                            Flag::BelowRange
+                        } else {
+                            Flag::Ok
+                        };
+                        if let Some((col, per, zero)) = self.tailwater_column {
+                            let tw = values[col][i];
+                            let r = exact.or_else(|| self.table.eval(head));
+                            if let (true, Some(r)) = (tw.is_finite(), r) {
+                                let level = tw * per - zero;
+                                let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
+                                let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
+                                if s > r.modular_limit {
+                                    flag = Flag::Submerged;
+                                    let est = if self.submerged_estimate {
+                                        submerged_discharge_estimate_m3s(model, q, s, r.modular_limit, self.exponent)
+                                    } else {
+                                        None
+                                    };
+                                    match est {
+                                        Some(e) => {
+                                            let ratio = e / q;
+                                            c.low_m3s[k] *= ratio;
+                                            c.high_m3s[k] *= ratio;
+                                            q = e;
+                                            c.discharge_m3s[k] = e;
+                                            counts.submerged_estimated += 1;
+                                        }
+                                        None => counts.submerged_not_estimated += 1,
                                     }
-                                    None => counts.submerged_not_estimated += 1,
                                 }
                             }
                         }
+                        let [dcd, db, dh] = sens[k];
+                        reading = Some(SeriesReading {
+                            discharge_m3s: q,
+                            dq_dcoefficient: dcd,
+                            dq_ddimension: db,
+                            dq_dhead: dh,
+                            duration_s: self.interval_s,
+                            included: flag.counted(),
+                        });
                     }
-                    rd.discharge_m3s = q;
-                    rd.included = flag.counted();
-                    reading = Some(rd);
                 }
             }
             counts.per_flag[flag as usize] += 1;
             if t != NO_TIME {
-                summaries.add(i64::from(days[i]), flag, q, reading.as_ref().filter(|r| r.included));
+                summaries.add(
+                    i64::from(days[i]),
+                    flag,
+                    c.discharge_m3s[k],
+                    reading.as_ref().filter(|r| r.included),
+                );
             }
-            c.time_ms.push(t);
-            c.stage_m.push(stage);
-            c.head_m.push(head);
-            c.discharge_m3s.push(q);
-            c.low_m3s.push(band.0);
-            c.high_m3s.push(band.1);
             c.flag.push(flag);
-            c.line.push(lines[i]);
         }
         c
     }

@@ -100,25 +100,45 @@ impl DenseRating {
         self.top_m
     }
 
-    /// Interpolated values at `head_m` (0 < h ≤ top); `None` above the table.
-    pub fn eval(&self, head_m: f64) -> Option<RatedHead> {
+    /// The first of the four nodes around `head_m` and their Lagrange weights; `None` unless
+    /// 0 < h ≤ top.
+    #[inline]
+    fn weights(&self, head_m: f64) -> Option<(usize, [f64; 4])> {
         if head_m.is_nan() || head_m <= 0.0 || head_m > self.top_m * (1.0 + 1e-12) {
             return None;
         }
         let x = head_m.sqrt() / self.dx;
         // x > 0 here, so truncation is the floor (and needs no call into libm)
         let k = (x as usize).clamp(1, NODES - 2);
-        let t = x - k as f64;
-        let c = crate::interp::lagrange4(t);
-        let mut v = [0.0; 6];
+        Some((k - 1, crate::interp::lagrange4(x - k as f64)))
+    }
+
+    /// The first `N` interpolated values at `head_m`.
+    #[inline]
+    fn values<const N: usize>(&self, first: usize, c: [f64; 4]) -> [f64; N] {
+        let mut v = [0.0; N];
         for (m, cm) in c.iter().enumerate() {
-            let node = &self.nodes[k - 1 + m];
-            for (vi, ni) in v.iter_mut().zip(node) {
+            for (vi, ni) in v.iter_mut().zip(&self.nodes[first + m]) {
                 *vi += cm * ni;
             }
         }
+        v
+    }
+
+    /// Discharge and its sensitivities (∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h) at `head_m`, as
+    /// [`Self::eval`] gives them: what most rows need. `None` unless 0 < h ≤ top.
+    #[inline]
+    pub fn eval_core(&self, head_m: f64) -> Option<[f64; 4]> {
+        let (first, c) = self.weights(head_m)?;
+        Some(self.values::<4>(first, c))
+    }
+
+    /// Interpolated values at `head_m` (0 < h ≤ top); `None` above the table.
+    pub fn eval(&self, head_m: f64) -> Option<RatedHead> {
+        let (first, c) = self.weights(head_m)?;
+        let mut v = self.values::<6>(first, c);
         // the node at h = 0 has no modular limit; read it from the nodes above instead
-        if k == 1 && !v[5].is_finite() {
+        if first == 0 && !v[5].is_finite() {
             v[5] = self.nodes[2][5];
         }
         Some(RatedHead {
