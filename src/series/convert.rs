@@ -502,7 +502,11 @@ impl Conversion<'_> {
                         included: true,
                     });
                 } else {
-                    let exact = if rated[k] { None } else { self.rated(head, counts, c.line[k]) };
+                    let exact = if rated[k] {
+                        None
+                    } else {
+                        self.rated(head, counts, c.line[k])
+                    };
                     if let Some(r) = exact {
                         // above the dense table: the model itself
                         let rd = SeriesReading {
