@@ -224,18 +224,21 @@ fn resolve_settings(a: &ConvertArgs, l: &LoggerSpec) -> anyhow::Result<Resolved>
     })
 }
 
+/// A side file as read: points (UTC ms, value), the value column's unit suffix, and the file's
+/// SHA-256 for the provenance.
+struct SideFile {
+    points: Vec<(i64, f64)>,
+    unit: String,
+    sha256: String,
+}
+
 /// Reads a small side file (visits, barometric) with a `time` column and one value column whose
-/// name starts with `prefix`; returns (UTC ms, value, unit suffix).
-fn side_file(
-    path: &Path,
-    prefix: &str,
-    formats: &[TimeFormat],
-    zone: &Zone,
-) -> anyhow::Result<(Vec<(i64, f64)>, String)> {
-    let mut r = csv::ReaderBuilder::new()
-        .flexible(true)
-        .from_path(path)
-        .with_context(|| format!("cannot read {}", path.display()))?;
+/// name starts with `prefix`, hashing the same bytes it parses.
+fn side_file(path: &Path, prefix: &str, formats: &[TimeFormat], zone: &Zone) -> anyhow::Result<SideFile> {
+    use sha2::Digest;
+    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let sha256 = format!("{:x}", sha2::Sha256::digest(&bytes));
+    let mut r = csv::ReaderBuilder::new().flexible(true).from_reader(&bytes[..]);
     let headers = r
         .headers()
         .with_context(|| format!("{}: no header line", path.display()))?
@@ -279,13 +282,11 @@ fn side_file(
             .with_context(|| format!("{}:{line}: \"{v}\" is not a number", path.display()))?;
         out.push((utc[0], v));
     }
-    Ok((out, unit))
-}
-
-fn hash_file(path: &Path) -> anyhow::Result<String> {
-    use sha2::Digest;
-    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
-    Ok(format!("{:x}", sha2::Sha256::digest(&bytes)))
+    Ok(SideFile {
+        points: out,
+        unit,
+        sha256,
+    })
 }
 
 fn lines_text(lines: &[u32], max: usize) -> String {
@@ -378,12 +379,15 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     timer.mark("rating table");
 
     // 4. corrections
+    let (mut baro_sha256, mut visits_sha256) = (None, None);
     let m_per = metres_per(&s.stage_unit).expect("checked");
     let stage = match &s.pressure_unit {
         None => StageSource::Level { metres_per_unit: m_per },
         Some(unit) => {
             let path = a.baro.as_ref().expect("checked");
-            let (points, _) = side_file(path, "pressure", &s.read.formats, &s.zone)?;
+            let baro = side_file(path, "pressure", &s.read.formats, &s.zone)?;
+            baro_sha256 = Some(baro.sha256);
+            let points = baro.points;
             let pa = pascals_per(unit).expect("checked");
             StageSource::Pressure {
                 pascals_per_unit: pa,
@@ -415,7 +419,9 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     }
     let mut drift_record: Vec<DriftPoint> = Vec::new();
     if let Some(path) = &a.visits {
-        let (visits, unit) = side_file(path, "head", &s.read.formats, &s.zone)?;
+        let side = side_file(path, "head", &s.read.formats, &s.zone)?;
+        visits_sha256 = Some(side.sha256);
+        let (visits, unit) = (side.points, side.unit);
         let per = metres_per(if unit.is_empty() { "m" } else { &unit }).with_context(|| {
             format!(
                 "{}: head unit \"{unit}\": name the column head_m, head_cm, head_mm or head_ft",
@@ -603,7 +609,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "gauge_zero": { "zero": s.zero, "unit": s.stage_unit, "zero_m": conv.zero_m, "rule": "head = stage - zero" },
             "drift": a.visits.as_ref().map(|p| json!({
                 "visits_file": p.display().to_string(),
-                "visits_sha256": hash_file(p).ok(),
+                "visits_sha256": visits_sha256,
                 "rule": "staff minus logger at each visit, linear in time between visits, constant outside",
                 "visits": drift_record.iter().map(|d| json!({
                     "time_utc_ms": d.time_ms,
@@ -614,7 +620,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             })),
             "barometric": s.pressure_unit.as_ref().map(|u| json!({
                 "baro_file": a.baro.as_ref().map(|p| p.display().to_string()),
-                "baro_sha256": a.baro.as_ref().and_then(|p| hash_file(p).ok()),
+                "baro_sha256": baro_sha256,
                 "pressure_unit": u,
                 "rule": "depth = (p_logger - p_baro) / (rho(T) g), baro interpolated linearly in time, rho by Kell (1975)",
                 "water_temperature_c": s.water_temperature,

@@ -434,6 +434,19 @@ impl Conversion<'_> {
         };
         let model: &RatingModel = self.gum.model();
         let weights = BandWeights::new(inputs);
+        // a reading from [Q, ∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h], and its band (never below 0)
+        let reading_of = |v: [f64; 4], included: bool| SeriesReading {
+            discharge_m3s: v[0],
+            dq_dcoefficient: v[1],
+            dq_ddimension: v[2],
+            dq_dhead: v[3],
+            duration_s: self.interval_s,
+            included,
+        };
+        let band_of = |v: [f64; 4]| {
+            let (lo, hi) = weights.band(&reading_of(v, false));
+            (lo.max(0.0), hi)
+        };
         // 1. stage and head of every row
         for &i in order {
             let t = utc[i];
@@ -462,18 +475,7 @@ impl Conversion<'_> {
                 None
             };
             let (q, s3, band, ok) = match r {
-                Some(r) => {
-                    let rd = SeriesReading {
-                        discharge_m3s: r[0],
-                        dq_dcoefficient: r[1],
-                        dq_ddimension: r[2],
-                        dq_dhead: r[3],
-                        duration_s: self.interval_s,
-                        included: false,
-                    };
-                    let (lo, hi) = weights.band(&rd);
-                    (r[0], [r[1], r[2], r[3]], (lo.max(0.0), hi), true)
-                }
+                Some(r) => (r[0], [r[1], r[2], r[3]], band_of(r), true),
                 None => (f64::NAN, [f64::NAN; 3], (f64::NAN, f64::NAN), false),
             };
             c.discharge_m3s.push(q);
@@ -493,14 +495,7 @@ impl Conversion<'_> {
                     c.discharge_m3s[k] = 0.0;
                     c.low_m3s[k] = 0.0;
                     c.high_m3s[k] = 0.0;
-                    reading = Some(SeriesReading {
-                        discharge_m3s: 0.0,
-                        dq_dcoefficient: 0.0,
-                        dq_ddimension: 0.0,
-                        dq_dhead: 0.0,
-                        duration_s: self.interval_s,
-                        included: true,
-                    });
+                    reading = Some(reading_of([0.0; 4], true));
                 } else {
                     let exact = if rated[k] {
                         None
@@ -509,19 +504,10 @@ impl Conversion<'_> {
                     };
                     if let Some(r) = exact {
                         // above the dense table: the model itself
-                        let rd = SeriesReading {
-                            discharge_m3s: r.discharge_m3s,
-                            dq_dcoefficient: r.dq_dcoefficient,
-                            dq_ddimension: r.dq_ddimension,
-                            dq_dhead: r.dq_dhead,
-                            duration_s: self.interval_s,
-                            included: false,
-                        };
-                        let (lo, hi) = weights.band(&rd);
+                        let v = [r.discharge_m3s, r.dq_dcoefficient, r.dq_ddimension, r.dq_dhead];
+                        (c.low_m3s[k], c.high_m3s[k]) = band_of(v);
                         c.discharge_m3s[k] = r.discharge_m3s;
-                        c.low_m3s[k] = lo.max(0.0);
-                        c.high_m3s[k] = hi;
-                        sens[k] = [r.dq_dcoefficient, r.dq_ddimension, r.dq_dhead];
+                        sens[k] = [v[1], v[2], v[3]];
                     }
                     if rated[k] || exact.is_some() {
                         let mut q = c.discharge_m3s[k];
@@ -561,14 +547,7 @@ impl Conversion<'_> {
                             }
                         }
                         let [dcd, db, dh] = sens[k];
-                        reading = Some(SeriesReading {
-                            discharge_m3s: q,
-                            dq_dcoefficient: dcd,
-                            dq_ddimension: db,
-                            dq_dhead: dh,
-                            duration_s: self.interval_s,
-                            included: flag.counted(),
-                        });
+                        reading = Some(reading_of([q, dcd, db, dh], flag.counted()));
                     }
                 }
             }

@@ -111,6 +111,12 @@ fn finite_validity(v: &[f64]) -> Option<Bitmap> {
     (valid.unset_bits() > 0).then_some(valid)
 }
 
+/// Validity of a time column: rows without a time become nulls (`None` when all have one).
+fn time_validity(t: &[i64]) -> Option<Bitmap> {
+    t.contains(&NO_TIME)
+        .then(|| t.iter().map(|t| *t != NO_TIME).collect::<Bitmap>())
+}
+
 /// A float column taking ownership of `v`; non-finite values become nulls (empty in CSV).
 fn opt(name: &str, v: Vec<f64>) -> Column {
     let validity = finite_validity(&v);
@@ -189,10 +195,7 @@ impl ParquetSink {
     fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
         let height = c.line.len();
         let floats = float_columns(&mut c);
-        let time_valid = c
-            .time_ms
-            .contains(&NO_TIME)
-            .then(|| c.time_ms.iter().map(|t| *t != NO_TIME).collect::<Bitmap>());
+        let time_valid = time_validity(&c.time_ms);
         let float = |v: Vec<f64>| -> Box<dyn Array> {
             let validity = finite_validity(&v);
             Box::new(PrimitiveArray::<f64>::from_vec(v).with_validity(validity))
@@ -277,8 +280,7 @@ impl SeriesWriter {
         };
         let height = c.line.len();
         let floats = float_columns(&mut c);
-        let valid: Bitmap = c.time_ms.iter().map(|t| *t != NO_TIME).collect();
-        let validity = (valid.unset_bits() > 0).then_some(valid);
+        let validity = time_validity(&c.time_ms);
         let time = Int64Chunked::from_vec_validity("time".into(), c.time_ms, validity)
             .into_datetime(TimeUnit::Milliseconds, self.tz.clone());
         let flag: StringChunked = c.flag.iter().map(|f| Some(f.as_str())).collect();

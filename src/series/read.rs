@@ -236,6 +236,15 @@ struct Layout {
     sentinel_values: Vec<f64>,
 }
 
+impl Layout {
+    /// Whether a value polars read stands as it is: finite and not equal to a sentinel. Any
+    /// other field is read again from the line's bytes.
+    #[inline]
+    fn settled(&self, v: f64) -> bool {
+        v.is_finite() && !self.sentinel_values.contains(&v)
+    }
+}
+
 /// A block of the file as read: `bytes[..end]` are whole lines to parse; `bytes[end..]` open the
 /// next block. `at` is the file offset just past `end`.
 struct Block {
@@ -643,7 +652,7 @@ fn take_block(
         let mut all_empty = empty_time;
         for (c, &idx) in layout.value_idx.iter().enumerate() {
             let v = out.values[c][base + k];
-            let st = if v.is_finite() && !layout.sentinel_values.contains(&v) {
+            let st = if layout.settled(v) {
                 FieldState::Ok
             } else {
                 let raw = field(k, idx);
@@ -793,7 +802,7 @@ fn parse_rows(
                 j += vals.len();
             }
             for (k, &v) in out.iter().enumerate() {
-                if !v.is_finite() || (!layout.sentinel_values.is_empty() && layout.sentinel_values.contains(&v)) {
+                if !layout.settled(v) {
                     sh.recheck.push((from + k) as u32);
                 }
             }

@@ -58,10 +58,19 @@ pub fn date_string(day: i64) -> String {
 
 /// Local wall-clock milliseconds of a date and time.
 fn wall_ms(y: i64, mo: u32, d: u32, h: u32, mi: u32, s: u32, ms: u32) -> Option<i64> {
-    if !(1..=12).contains(&mo) || d == 0 || d > days_in_month(y, mo) || h > 23 || mi > 59 || s > 60 {
+    if !(1..=12).contains(&mo) || d == 0 || d > days_in_month(y, mo) {
         return None;
     }
-    Some(days_from_civil(y, mo, d) * MS_PER_DAY + ((h as i64 * 60 + mi as i64) * 60 + s as i64) * 1000 + ms as i64)
+    Some(days_from_civil(y, mo, d) * MS_PER_DAY + clock_ms(h, mi, s, ms)?)
+}
+
+/// Milliseconds since midnight of a clock time; `None` for an hour, minute or second out of range
+/// (a leap second, :60, is allowed).
+fn clock_ms(h: u32, mi: u32, s: u32, ms: u32) -> Option<i64> {
+    if h > 23 || mi > 59 || s > 60 {
+        return None;
+    }
+    Some(((i64::from(h) * 60 + i64::from(mi)) * 60 + i64::from(s)) * 1000 + i64::from(ms))
 }
 
 /// One piece of a time format.
@@ -161,10 +170,7 @@ impl Fixed {
                         _ => s = v,
                     }
                 }
-                if h > 23 || mi > 59 || s > 60 {
-                    return None;
-                }
-                return Some(cache.day_ms + ((i64::from(h) * 60 + i64::from(mi)) * 60 + i64::from(s)) * 1000);
+                return Some(cache.day_ms + clock_ms(h, mi, s, 0)?);
             }
         }
         let v = self.parse_all(b)?;
@@ -191,23 +197,10 @@ impl Fixed {
     fn parse_all(&self, b: &[u8]) -> Option<i64> {
         let (mut y, mut mo, mut d, mut h, mut mi, mut s) = (1970i64, 1u32, 1u32, 0u32, 0u32, 0u32);
         for (t, p, w) in &self.fields {
-            let mut v = 0u32;
-            for &c in &b[*p..*p + *w] {
-                if !c.is_ascii_digit() {
-                    return None;
-                }
-                v = v * 10 + u32::from(c - b'0');
-            }
+            let v = Self::number(&b[*p..*p + *w])?;
             match t {
                 Tok::Year4 => y = i64::from(v),
-                // POSIX strptime: 69–99 are 1969–1999, 00–68 are 2000–2068
-                Tok::Year2 => {
-                    y = if v >= 69 {
-                        1900 + i64::from(v)
-                    } else {
-                        2000 + i64::from(v)
-                    }
-                }
+                Tok::Year2 => y = century_of(v),
                 Tok::Month => mo = v,
                 Tok::Day => d = v,
                 Tok::Hour => h = v,
@@ -293,6 +286,16 @@ impl TimeFormat {
     }
 }
 
+/// A two-digit year as POSIX strptime reads it: 69–99 are 1969–1999, 00–68 are 2000–2068.
+fn century_of(yy: u32) -> i64 {
+    let yy = i64::from(yy);
+    if yy >= 69 {
+        1900 + yy
+    } else {
+        2000 + yy
+    }
+}
+
 fn digits(b: &[u8], pos: &mut usize, min: usize, max: usize) -> Option<u32> {
     let start = *pos;
     let mut v: u32 = 0;
@@ -309,11 +312,7 @@ fn parse_fast(toks: &[Tok], b: &[u8]) -> Option<i64> {
     for t in toks {
         match t {
             Tok::Year4 => y = i64::from(digits(b, &mut p, 4, 4)?),
-            Tok::Year2 => {
-                // POSIX strptime: 69–99 are 1969–1999, 00–68 are 2000–2068
-                let v = i64::from(digits(b, &mut p, 2, 2)?);
-                y = if v >= 69 { 1900 + v } else { 2000 + v };
-            }
+            Tok::Year2 => y = century_of(digits(b, &mut p, 2, 2)?),
             Tok::Month => mo = digits(b, &mut p, 1, 2)?,
             Tok::Day => d = digits(b, &mut p, 1, 2)?,
             Tok::Hour => h = digits(b, &mut p, 1, 2)?,
