@@ -6,6 +6,7 @@ mod integration {
     pub mod cli;
     pub mod convert;
     pub mod malformed;
+    pub mod order;
     pub mod properties;
     pub mod references;
     pub mod sheet;

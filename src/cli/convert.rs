@@ -11,14 +11,13 @@ use clap::Args;
 use flumerate::rating::fit_power_law;
 use flumerate::report::plot::{hydrograph, HydroBuckets};
 use flumerate::report::{sig, wrap, CAUTIONS};
-use flumerate::series::convert::{
-    nominal_interval_ms, order_counts, time_note_lines, Conversion, Counts, Flag, StageSource, Summaries,
-};
+use flumerate::series::convert::{time_note_lines, Conversion, Counts, Flag, StageSource, Summaries};
 use flumerate::series::correct::{drift_points, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use flumerate::series::dense::DenseRating;
 use flumerate::series::output::{write_summary, SeriesWriter, TableFile};
 use flumerate::series::read::{read_logger, ColumnRef, ReadSettings};
 use flumerate::series::time::{parse_any, resolve, resolve_in_place, TimeFormat, Zone, NO_TIME};
+use flumerate::series::timeline::Timeline;
 use flumerate::station::LoggerSpec;
 use flumerate::tailwater::{Exit, Tailwater};
 use flumerate::uncertainty::{GumModel, Inputs};
@@ -357,8 +356,9 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     // 2. times
     let mut utc = std::mem::take(&mut raw.wall_ms);
     let (days, notes) = resolve_in_place(&s.zone, &mut utc);
-    let (backwards, duplicates) = order_counts(&utc);
-    let interval_ms = nominal_interval_ms(&utc).context("fewer than two readings with a time: nothing to convert")?;
+    let timeline = Timeline::new(&utc, &raw.values, &raw.lines)
+        .with_context(|| format!("{}: cannot convert", a.logger.display()))?;
+    let interval_ms = timeline.interval_ms;
     let interval_s = interval_ms as f64 / 1000.0;
     timer.mark("times");
 
@@ -411,7 +411,8 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         tailwater: tailwater.as_ref(),
         submerged_estimate: a.submerged_estimate,
         exponent,
-        interval_s,
+        timeline: &timeline,
+        zone: s.zone,
         gravity_m_s2: g,
     };
     if s.tailwater_index.is_some() && s.tailwater_zero.is_none() {
@@ -643,8 +644,14 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "unreadable": raw.unreadable.iter().map(|(l, w)| json!({"line": l, "problem": w})).collect::<Vec<_>>(),
             "empty_stage_fields": raw.empty_fields.first().copied().unwrap_or(0),
             "sentinel_stage_fields": raw.sentinel_fields.first().copied().unwrap_or(0),
-            "backward_time_steps": backwards,
-            "duplicate_times": duplicates,
+            "backward_time_steps": timeline.backward_steps,
+            "newest_first": timeline.newest_first,
+            "repeated_instants": timeline.repeated_instants,
+            "repeat_rows_not_counted": timeline.repeat_rows,
+            "repeated_instants_with_differing_values": {
+                "total": timeline.differing_total,
+                "lines": timeline.differing,
+            },
             "time_notes": time_notes,
             "submerged_estimated": counts.submerged_estimated,
             "submerged_not_estimated": counts.submerged_not_estimated,
@@ -691,13 +698,46 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             lines_text(&ls, 20)
         ));
     }
-    if backwards > 0 || duplicates > 0 {
+    if timeline.backward_steps > 0 {
         r.push_str(&format!(
-            "timestamps: {backwards} backward step(s), {duplicates} duplicate(s){}\n",
-            if a.sort {
-                "; rows written sorted by time"
+            "order: {}; converted in time order, {}\n",
+            if timeline.newest_first {
+                "newest first".to_string()
             } else {
-                "; rows written in input order (--sort to sort)"
+                format!("{} step(s) back in time", timeline.backward_steps)
+            },
+            if a.sort {
+                "rows written sorted by time"
+            } else {
+                "rows written in file order (--sort to sort)"
+            }
+        ));
+    }
+    if timeline.repeated_instants > 0 {
+        r.push_str(&format!(
+            "repeated instants: {} instant(s) held by more than one row; {} repeat row(s) written but not counted in volumes (column counted_line names the row that counts)\n",
+            timeline.repeated_instants, timeline.repeat_rows
+        ));
+    }
+    if timeline.differing_total > 0 {
+        let shown: Vec<String> = timeline
+            .differing
+            .iter()
+            .take(10)
+            .map(|g| g.iter().map(|l| l.to_string()).collect::<Vec<_>>().join("/"))
+            .collect();
+        r.push_str(&format!(
+            "repeated instants whose values differ: {} (the first row with a readable value counts), lines {}{}\n",
+            timeline.differing_total,
+            shown.join(", "),
+            if timeline.differing_total > shown.len() {
+                format!(
+                    " … ({} more; the provenance lists up to {})",
+                    timeline.differing_total - shown.len(),
+                    flumerate::series::timeline::MAX_LISTED
+                )
+            } else {
+                String::new()
             }
         ));
     }

@@ -5,16 +5,20 @@
 //! from the uncertainty inputs → one flag, most severe first: `missing`, `submerged`,
 //! `above-range`, `below-range`, `dry`, `ok` (design.md).
 //!
-//! Summaries count the rows flagged `ok` or `dry`; each stands for the nominal logging interval
-//! (the median step between readings). Other rows are counted as flagged and add neither volume
-//! nor uncertainty. Volume uncertainties keep systematic parts (coefficient, width, gauge zero)
-//! fully correlated and reading noise independent ([`crate::uncertainty::series`]).
+//! Summaries count the rows flagged `ok` or `dry`; each stands for the time to the next reading,
+//! at most the nominal logging interval, and a row that repeats another's instant stands for no
+//! time ([`super::timeline`]). A reading whose time runs past the end of its local day gives the
+//! rest to the next day, so a day is never covered for more than its length. Other rows are
+//! counted as flagged and add neither volume nor uncertainty. Volume uncertainties keep
+//! systematic parts (coefficient, width, gauge zero) fully correlated and reading noise
+//! independent ([`crate::uncertainty::series`]).
 
 use std::collections::BTreeMap;
 
 use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
-use super::time::{civil_from_days, date_string, TimeNote, NO_TIME};
+use super::time::{civil_from_days, date_string, local_day_start_utc, TimeNote, Zone, NO_TIME};
+use super::timeline::Timeline;
 use crate::rating::RatingModel;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_discharge_estimate_m3s, Tailwater};
@@ -112,8 +116,10 @@ pub struct Conversion<'a> {
     pub submerged_estimate: bool,
     /// Exponent n of the rating equation, for the drowned-flow estimate.
     pub exponent: f64,
-    /// Seconds each counted reading stands for.
-    pub interval_s: f64,
+    /// The rows in time order: the time each row stands for, and repeated instants.
+    pub timeline: &'a Timeline,
+    /// The logger's clock, for the ends of local days.
+    pub zone: Zone,
     /// Gravity (m/s²).
     pub gravity_m_s2: f64,
 }
@@ -137,6 +143,9 @@ pub struct Chunk {
     pub flag: Vec<Flag>,
     /// Source line.
     pub line: Vec<u32>,
+    /// For rows whose instant other rows hold too: the line of the row that counts for it
+    /// (0 where the row holds its instant alone).
+    pub counted_line: Vec<u32>,
 }
 
 /// Counts for the report.
@@ -184,6 +193,7 @@ impl Chunk {
         self.high_m3s.extend(o.high_m3s);
         self.flag.extend(o.flag);
         self.line.extend(o.line);
+        self.counted_line.extend(o.counted_line);
     }
 }
 
@@ -192,7 +202,6 @@ impl Chunk {
 struct Acc {
     rows: usize,
     counted: usize,
-    sum_q: f64,
     min_q: f64,
     max_q: f64,
     period: PeriodAccumulator,
@@ -203,7 +212,6 @@ impl Default for Acc {
         Self {
             rows: 0,
             counted: 0,
-            sum_q: 0.0,
             min_q: f64::INFINITY,
             max_q: f64::NEG_INFINITY,
             period: PeriodAccumulator::default(),
@@ -212,11 +220,10 @@ impl Default for Acc {
 }
 
 impl Acc {
-    fn add(&mut self, flag: Flag, q: f64, r: Option<&SeriesReading>) {
+    fn add(&mut self, counted: bool, q: f64, r: Option<&SeriesReading>) {
         self.rows += 1;
-        if flag.counted() {
+        if counted {
             self.counted += 1;
-            self.sum_q += q;
             self.min_q = self.min_q.min(q);
             self.max_q = self.max_q.max(q);
         }
@@ -228,7 +235,6 @@ impl Acc {
     fn merge(&mut self, o: &Acc) {
         self.rows += o.rows;
         self.counted += o.counted;
-        self.sum_q += o.sum_q;
         self.min_q = self.min_q.min(o.min_q);
         self.max_q = self.max_q.max(o.max_q);
         self.period.merge(&o.period);
@@ -242,9 +248,9 @@ pub struct PeriodRow {
     pub label: String,
     /// Rows in the period.
     pub rows: usize,
-    /// Rows counted (`ok` or `dry`).
+    /// Rows counted (`ok` or `dry`, not repeating another row's instant).
     pub rows_counted: usize,
-    /// Mean discharge over counted rows (m³/s).
+    /// Mean discharge over the time covered by counted rows (m³/s).
     pub mean_m3s: f64,
     /// Smallest counted discharge (m³/s).
     pub min_m3s: f64,
@@ -271,16 +277,21 @@ pub struct Summaries {
 }
 
 impl Summaries {
-    fn add(&mut self, day: i64, flag: Flag, q: f64, r: Option<&SeriesReading>) {
-        match &mut self.current {
-            Some((d, acc)) if *d == day => acc.add(flag, q, r),
-            _ => {
-                self.flush();
-                let mut acc = Acc::default();
-                acc.add(flag, q, r);
-                self.current = Some((day, acc));
-            }
+    fn add(&mut self, day: i64, counted: bool, q: f64, r: Option<&SeriesReading>) {
+        self.acc(day).add(counted, q, r);
+    }
+
+    /// The rest of a reading's time that runs into a later day: time and volume, no row.
+    fn add_spill(&mut self, day: i64, r: &SeriesReading) {
+        self.acc(day).period.push(r);
+    }
+
+    fn acc(&mut self, day: i64) -> &mut Acc {
+        if !matches!(&self.current, Some((d, _)) if *d == day) {
+            self.flush();
+            self.current = Some((day, Acc::default()));
         }
+        &mut self.current.as_mut().expect("set above").1
     }
 
     fn flush(&mut self) {
@@ -317,7 +328,11 @@ impl Summaries {
                     label: label(*k),
                     rows: a.rows,
                     rows_counted: a.counted,
-                    mean_m3s: if counted { a.sum_q / a.counted as f64 } else { f64::NAN },
+                    mean_m3s: if counted && p.covered_s > 0.0 {
+                        p.volume_m3 / p.covered_s
+                    } else {
+                        f64::NAN
+                    },
                     min_m3s: if counted { a.min_q } else { f64::NAN },
                     max_m3s: if counted { a.max_q } else { f64::NAN },
                     volume_m3: p.volume_m3,
@@ -431,22 +446,24 @@ impl Conversion<'_> {
             high_m3s: Vec::with_capacity(n),
             flag: Vec::with_capacity(n),
             line: Vec::with_capacity(n),
+            counted_line: Vec::with_capacity(n),
         };
         let model: &RatingModel = self.gum.model();
         let weights = BandWeights::new(inputs);
         // a reading from [Q, ∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h], and its band (never below 0)
-        let reading_of = |v: [f64; 4], included: bool| SeriesReading {
+        let reading_of = |v: [f64; 4], duration_s: f64, included: bool| SeriesReading {
             discharge_m3s: v[0],
             dq_dcoefficient: v[1],
             dq_ddimension: v[2],
             dq_dhead: v[3],
-            duration_s: self.interval_s,
+            duration_s,
             included,
         };
         let band_of = |v: [f64; 4]| {
-            let (lo, hi) = weights.band(&reading_of(v, false));
+            let (lo, hi) = weights.band(&reading_of(v, 0.0, false));
             (lo.max(0.0), hi)
         };
+        let mut day_end = DayEnds::new(self.zone);
         // 1. stage and head of every row
         for &i in order {
             let t = utc[i];
@@ -462,6 +479,7 @@ impl Conversion<'_> {
             c.stage_m.push(stage);
             c.head_m.push(stage - self.zero_m + drift);
             c.line.push(lines[i]);
+            c.counted_line.push(self.timeline.counted_line(i).unwrap_or(0));
         }
         // 2. the rating and band of every head above the crest, in a tight loop over rows that
         // do not depend on each other (so that the processor overlaps them)
@@ -495,7 +513,7 @@ impl Conversion<'_> {
                     c.discharge_m3s[k] = 0.0;
                     c.low_m3s[k] = 0.0;
                     c.high_m3s[k] = 0.0;
-                    reading = Some(reading_of([0.0; 4], true));
+                    reading = Some(reading_of([0.0; 4], 0.0, true));
                 } else {
                     let exact = if rated[k] {
                         None
@@ -547,18 +565,35 @@ impl Conversion<'_> {
                             }
                         }
                         let [dcd, db, dh] = sens[k];
-                        reading = Some(reading_of([q, dcd, db, dh], flag.counted()));
+                        reading = Some(reading_of([q, dcd, db, dh], 0.0, flag.counted()));
                     }
                 }
             }
             counts.per_flag[flag as usize] += 1;
             if t != NO_TIME {
-                summaries.add(
-                    i64::from(days[i]),
-                    flag,
-                    c.discharge_m3s[k],
-                    reading.as_ref().filter(|r| r.included),
-                );
+                let repeat = self.timeline.is_repeat(i, c.line[k]);
+                let counted = flag.counted() && !repeat;
+                let duration_ms = self.timeline.duration_ms(i, utc);
+                let day = i64::from(days[i]);
+                match reading.filter(|_| counted) {
+                    None => summaries.add(day, false, c.discharge_m3s[k], None),
+                    Some(mut r) => {
+                        // the part of the reading's time within its own day, then any rest
+                        let end = day_end.of(day);
+                        let own = duration_ms.min((end - t).max(0));
+                        r.duration_s = own as f64 / 1000.0;
+                        summaries.add(day, true, c.discharge_m3s[k], Some(&r));
+                        let (mut rest, mut d, mut from) = (duration_ms - own, day, end);
+                        while rest > 0 {
+                            d += 1;
+                            let part = rest.min(day_end.of(d) - from).max(1);
+                            r.duration_s = part as f64 / 1000.0;
+                            summaries.add_spill(d, &r);
+                            rest -= part;
+                            from += part;
+                        }
+                    }
+                }
             }
             c.flag.push(flag);
         }
@@ -566,54 +601,27 @@ impl Conversion<'_> {
     }
 }
 
-/// Backward steps and repeated times among the rows' instants.
-pub fn order_counts(utc: &[i64]) -> (usize, usize) {
-    let mut backwards = 0;
-    let mut last = NO_TIME;
-    let mut sorted = true;
-    let mut adjacent_dupes = 0;
-    for &t in utc.iter().filter(|t| **t != NO_TIME) {
-        if last != NO_TIME {
-            if t < last {
-                backwards += 1;
-                sorted = false;
-            } else if t == last {
-                adjacent_dupes += 1;
-            }
-        }
-        last = t;
-    }
-    if sorted {
-        return (0, adjacent_dupes);
-    }
-    let mut v: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
-    v.sort_unstable();
-    let dupes = v.windows(2).filter(|w| w[0] == w[1]).count();
-    (backwards, dupes)
+/// The end (UTC ms) of local days, remembering the last one asked for.
+struct DayEnds {
+    zone: Zone,
+    last: Option<(i64, i64)>,
 }
 
-/// The nominal logging interval (ms): the median of the positive steps between consecutive
-/// readings (at most 200 000 steps spread over the file are examined).
-pub fn nominal_interval_ms(utc: &[i64]) -> Option<i64> {
-    let n = utc.len();
-    let stride = (n / 200_000).max(1);
-    let mut steps: Vec<i64> = (1..n)
-        .step_by(stride)
-        .filter(|&i| utc[i] != NO_TIME && utc[i - 1] != NO_TIME)
-        .map(|i| utc[i] - utc[i - 1])
-        .filter(|d| *d > 0)
-        .collect();
-    if steps.is_empty() {
-        // readings separated by unread rows only: fall back to all valid neighbours
-        let valid: Vec<i64> = utc.iter().copied().filter(|t| *t != NO_TIME).collect();
-        steps = valid.windows(2).map(|w| w[1] - w[0]).filter(|d| *d > 0).collect();
+impl DayEnds {
+    fn new(zone: Zone) -> Self {
+        Self { zone, last: None }
     }
-    if steps.is_empty() {
-        return None;
+
+    fn of(&mut self, day: i64) -> i64 {
+        match self.last {
+            Some((d, end)) if d == day => end,
+            _ => {
+                let end = local_day_start_utc(&self.zone, day + 1);
+                self.last = Some((day, end));
+                end
+            }
+        }
     }
-    let mid = steps.len() / 2;
-    let (_, m, _) = steps.select_nth_unstable(mid);
-    Some(*m)
 }
 
 /// Rows of the times: counts of each [`TimeNote`] with the lines of the notable ones.

@@ -5,3 +5,4 @@ pub mod dense;
 pub mod output;
 pub mod read;
 pub mod time;
+pub mod timeline;

@@ -98,6 +98,7 @@ fn series_schema(tz: Option<TimeZone>) -> Schema {
     let rest = [
         Field::new("flag".into(), DataType::String),
         Field::new("line".into(), DataType::UInt32),
+        Field::new("counted_line".into(), DataType::UInt32),
     ];
     Schema::from_iter(std::iter::once(time).chain(floats).chain(rest))
 }
@@ -109,6 +110,14 @@ fn finite_validity(v: &[f64]) -> Option<Bitmap> {
     }
     let valid: Bitmap = v.iter().map(|x| x.is_finite()).collect();
     (valid.unset_bits() > 0).then_some(valid)
+}
+
+/// Validity of the counted-line column: rows that hold their instant alone have none (`None`
+/// when no row has one).
+fn line_validity(l: &[u32]) -> Option<Bitmap> {
+    l.iter()
+        .any(|l| *l != 0)
+        .then(|| l.iter().map(|l| *l != 0).collect::<Bitmap>())
 }
 
 /// Validity of a time column: rows without a time become nulls (`None` when all have one).
@@ -136,8 +145,8 @@ struct ParquetSink {
     flag_words: Utf8ViewArray,
 }
 
-/// Encodings of the eight columns, in schema order.
-const PARQUET_ENCODINGS: [Encoding; 8] = [
+/// Encodings of the nine columns, in schema order.
+const PARQUET_ENCODINGS: [Encoding; 9] = [
     Encoding::DeltaBinaryPacked,
     Encoding::Plain,
     Encoding::Plain,
@@ -146,6 +155,7 @@ const PARQUET_ENCODINGS: [Encoding; 8] = [
     Encoding::Plain,
     Encoding::RleDictionary,
     Encoding::DeltaBinaryPacked,
+    Encoding::Plain,
 ];
 
 impl ParquetSink {
@@ -157,6 +167,7 @@ impl ParquetSink {
         }
         fields.push(ArrowField::new("flag".into(), ArrowDataType::Utf8View, false));
         fields.push(ArrowField::new("line".into(), ArrowDataType::UInt32, false));
+        fields.push(ArrowField::new("counted_line".into(), ArrowDataType::UInt32, true));
         let types = fields.iter().map(to_parquet_type).collect::<PolarsResult<Vec<_>>>()?;
         let options = WriteOptions {
             statistics: StatisticsOptions::empty(),
@@ -215,11 +226,15 @@ impl ParquetSink {
         arrays.extend(floats.map(float));
         arrays.push(Box::new(flags));
         arrays.push(Box::new(PrimitiveArray::<u32>::from_vec(c.line)));
-        // columns 0–3 on this thread, 4–7 on a helper: about the same bytes each
+        let counted_valid = line_validity(&c.counted_line);
+        arrays.push(Box::new(
+            PrimitiveArray::<u32>::from_vec(c.counted_line).with_validity(counted_valid),
+        ));
+        // columns 0–3 on this thread, 4–8 on a helper: about the same bytes each
         let this = &*self;
         let pages: Vec<Vec<CompressedPage>> = std::thread::scope(|scope| {
             let helper = scope.spawn(|| {
-                (4..8)
+                (4..9)
                     .map(|k| this.encode(arrays[k].as_ref(), k))
                     .collect::<PolarsResult<Vec<_>>>()
             });
@@ -289,6 +304,12 @@ impl SeriesWriter {
         cols.push(flag.into_series().with_name("flag".into()).into_column());
         cols.push(
             UInt32Chunked::from_vec("line".into(), c.line)
+                .into_series()
+                .into_column(),
+        );
+        let counted_valid = line_validity(&c.counted_line);
+        cols.push(
+            UInt32Chunked::from_vec_validity("counted_line".into(), c.counted_line, counted_valid)
                 .into_series()
                 .into_column(),
         );

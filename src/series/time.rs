@@ -505,7 +505,100 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
 /// maps to one instant: there the rule starts afresh in file order too, so the result is the
 /// same as in one pass (tested).
 pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
-    resolve_split(zone, times, 1 << 20)
+    if is_newest_first(times) {
+        // a newest-first export: the rule runs in time order, so from the file's end
+        times.reverse();
+        let (mut days, notes) = resolve_split(zone, times, 1 << 20);
+        times.reverse();
+        days.reverse();
+        let n = times.len();
+        let mut notes: Vec<(usize, TimeNote)> = notes.into_iter().map(|(i, note)| (n - 1 - i, note)).collect();
+        notes.reverse();
+        settle_repeated_hour(zone, times, &mut notes);
+        return (days, notes);
+    }
+    let (days, mut notes) = resolve_split(zone, times, 1 << 20);
+    settle_repeated_hour(zone, times, &mut notes);
+    (days, notes)
+}
+
+/// Whether the readings run newest first: more backward than forward steps between consecutive
+/// readable wall-clock times (up to 100 000 steps spread over the file are looked at).
+pub fn is_newest_first(wall: &[i64]) -> bool {
+    let n = wall.len();
+    let stride = (n / 100_000).max(1);
+    let (mut forward, mut backward) = (0usize, 0usize);
+    let mut last = NO_TIME;
+    for i in (0..n).step_by(stride) {
+        let w = wall[i];
+        if w == NO_TIME {
+            continue;
+        }
+        if last != NO_TIME {
+            forward += usize::from(w > last);
+            backward += usize::from(w < last);
+        }
+        last = w;
+    }
+    backward > forward
+}
+
+/// A repeated-hour reading whose instant another reading of the same local time also took,
+/// while the other instant of that local time went to no reading, is moved to it. This happens
+/// only when the rows are out of order (merged or shuffled files), where the clock rule cannot
+/// see the clock step back: one local time seen twice in the repeated hour is one reading in
+/// summer time and one in standard time, whatever their order in the file. The note of the
+/// moved row changes with it.
+fn settle_repeated_hour(zone: &Zone, utc: &mut [i64], notes: &mut [(usize, TimeNote)]) {
+    use std::collections::HashMap;
+    let ambiguous: Vec<usize> = (0..notes.len())
+        .filter(|&k| matches!(notes[k].1, TimeNote::AmbiguousEarlier | TimeNote::AmbiguousLater))
+        .collect();
+    if ambiguous.len() < 2 {
+        return;
+    }
+    // instant -> positions in `notes` of the rows that took it, in file order
+    let mut taken: HashMap<i64, Vec<usize>> = HashMap::new();
+    for &k in &ambiguous {
+        taken.entry(utc[notes[k].0]).or_default().push(k);
+    }
+    let mut moves: Vec<(usize, i64, TimeNote)> = Vec::new();
+    for (&instant, ks) in &taken {
+        if ks.len() < 2 {
+            continue;
+        }
+        let wall = instant + i64::from(zone.offset_at_utc(instant)) * 1000;
+        let Resolved::Ambiguous(early, late) = zone.resolve_exact(wall) else {
+            continue;
+        };
+        let (twin, k, note) = if instant == early {
+            (late, ks[ks.len() - 1], TimeNote::AmbiguousLater)
+        } else {
+            (early, ks[0], TimeNote::AmbiguousEarlier)
+        };
+        if !taken.contains_key(&twin) {
+            moves.push((k, twin, note));
+        }
+    }
+    for (k, twin, note) in moves {
+        utc[notes[k].0] = twin;
+        notes[k].1 = note;
+    }
+}
+
+/// The UTC instant (ms) at which local calendar day `day` (days since 1970-01-01 on the local
+/// clock) begins: its first existing local time from midnight on, the earlier instant where
+/// midnight occurs twice.
+pub fn local_day_start_utc(zone: &Zone, day: i64) -> i64 {
+    let midnight = day * MS_PER_DAY;
+    // a clock change at midnight skips at most a few hours; look a quarter-hour at a time
+    for k in 0..=24 * 4 {
+        match zone.resolve_exact(midnight + k * 15 * 60_000) {
+            Resolved::Unique(t) | Resolved::Ambiguous(t, _) => return t,
+            Resolved::Nonexistent => continue,
+        }
+    }
+    midnight
 }
 
 fn resolve_split(zone: &Zone, times: &mut [i64], min_split: usize) -> (Vec<i32>, Vec<(usize, TimeNote)>) {

@@ -117,7 +117,11 @@ fn messy_rows_are_flagged_and_reported() {
         report.contains("unreadable rows (flag missing), lines: 10, 14, 19"),
         "{report}"
     );
-    assert!(report.contains("1 backward step(s), 2 duplicate(s)"), "{report}");
+    assert!(report.contains("order: 1 step(s) back in time"), "{report}");
+    assert!(
+        report.contains("repeated instants: 2 instant(s) held by more than one row; 2 repeat row(s)"),
+        "{report}"
+    );
     assert!(
         report.contains("nonexistent (spring clock change): 2 row(s), lines 25, 26"),
         "{report}"
@@ -288,7 +292,8 @@ fn parquet_output_and_plot_are_written() {
             "discharge_low_m3s",
             "discharge_high_m3s",
             "flag",
-            "line"
+            "line",
+            "counted_line"
         ]
     );
     // the same rows as the CSV output, value for value (nulls where the CSV is empty)
