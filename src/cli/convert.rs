@@ -159,10 +159,8 @@ fn resolve_settings(a: &ConvertArgs, l: &LoggerSpec) -> anyhow::Result<Resolved>
         Some(s) if s.len() == 1 && s.is_ascii() => s.as_bytes()[0],
         Some(s) => bail!("--separator \"{s}\": give one character"),
     };
+    // a decimal comma with a comma separator reads only from quoted fields: the reader decides
     let decimal_comma = a.decimal_comma || l.decimal_comma;
-    if decimal_comma && separator == b',' {
-        bail!("a decimal comma needs another field separator: give --separator \";\" (or [logger] separator)");
-    }
     let formats: Vec<String> = if !a.time_format.is_empty() {
         a.time_format.clone()
     } else if !l.time_formats.is_empty() {
@@ -703,6 +701,11 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "order: {}; converted in time order, {}\n",
             if timeline.newest_first {
                 "newest first".to_string()
+            } else if timeline.shuffled {
+                format!(
+                    "out of time order ({} step(s) back in time; a repeated clock-change hour is told apart by the order of its copies in the file alone)",
+                    timeline.backward_steps
+                )
             } else {
                 format!("{} step(s) back in time", timeline.backward_steps)
             },

@@ -9,6 +9,15 @@
 //! Wherever polars has no finite number for a value (an empty field, a sentinel, text, or a
 //! number equal to a sentinel's), flumerate reads that field again from the line's own bytes with
 //! its own rule ([`parse_value`]), so every field is judged the same way whichever path it took.
+//! A missing-value marker matches by text and, when it is a number, by value (`-9999` also
+//! catches `-9999.00` and `-9.999e3`).
+//!
+//! Fields may be quoted (`"…"`, with `""` for a quote inside): a file whose header or first data
+//! line holds a quote is read with quoting on. A decimal comma with a comma separator can only
+//! be read when the fields are quoted; otherwise the file is refused. A line with more fields
+//! than the header (beyond empty trailing ones) is not cut to fit: its row is kept, without
+//! values, and listed as unreadable with its line. Line ends are `\n` or `\r\n`; a file whose
+//! lines end in a bare `\r` is refused with the fix.
 //! Blank lines are not records: they are counted and listed, not converted. Every other line
 //! becomes one row; a line whose time or value cannot be read becomes a row without them, and its
 //! line number is kept. The file's SHA-256 is computed on another thread from the same bytes.
@@ -136,6 +145,20 @@ pub enum ReadError {
         /// The columns found.
         available: String,
     },
+    /// A decimal comma with a comma separator and unquoted fields.
+    #[error("{path}: numbers with a decimal comma cannot be told apart from fields when the separator is a comma too (\"12,5\" would be two fields)\n  fix: give the separator the file uses (--separator \";\" or [logger] separator), or export the file with quoted fields or a decimal point")]
+    DecimalCommaSeparator {
+        /// File.
+        path: String,
+    },
+    /// Lines end in a bare carriage return.
+    #[error("{path}: line {line} holds a carriage return (\\r) that does not end a line: the file's lines seem to end in a bare \\r (an old Mac text file), which flumerate does not read as line ends\n  fix: convert the line ends first, e.g. tr '\\r' '\\n' < {path} > fixed.csv")]
+    BareCarriageReturn {
+        /// File.
+        path: String,
+        /// The line (1-based, counting \n line ends) that holds it.
+        line: usize,
+    },
     /// Nothing to convert.
     #[error("{path}: no data rows after line {after}\n  fix: check skip_lines and the header setting")]
     NoRows {
@@ -159,10 +182,59 @@ pub enum ReadError {
 }
 
 fn split_header(line: &str, sep: u8) -> Vec<String> {
-    line.trim_end_matches(['\r', '\n'])
-        .split(sep as char)
-        .map(|s| s.trim().trim_matches('"').to_string())
+    let line = line.trim_end_matches(['\r', '\n']);
+    fields(line.as_bytes(), sep, line.contains('"'))
+        .map(|f| String::from_utf8_lossy(&unquote(f)).trim().to_string())
         .collect()
+}
+
+/// The fields of one line (no line end), split at `sep`; with `quoted`, a separator inside
+/// `"…"` does not split. Fields are returned as written (quotes kept; see [`unquote`]).
+pub fn fields(line: &[u8], sep: u8, quoted: bool) -> impl Iterator<Item = &[u8]> {
+    let mut start = 0;
+    let mut done = false;
+    std::iter::from_fn(move || {
+        if done {
+            return None;
+        }
+        let mut in_quotes = false;
+        let mut i = start;
+        while i < line.len() {
+            let b = line[i];
+            if quoted && b == b'"' {
+                in_quotes = !in_quotes;
+            } else if b == sep && !in_quotes {
+                let f = &line[start..i];
+                start = i + 1;
+                return Some(f);
+            }
+            i += 1;
+        }
+        done = true;
+        Some(&line[start..])
+    })
+}
+
+/// A field without its surrounding quotes (white space around them ignored), `""` read as `"`.
+pub fn unquote(field: &[u8]) -> std::borrow::Cow<'_, [u8]> {
+    let t = field.trim_ascii();
+    match t.strip_prefix(b"\"").and_then(|r| r.strip_suffix(b"\"")) {
+        Some(inner) if inner.windows(2).any(|w| w == b"\"\"") => {
+            let mut out = Vec::with_capacity(inner.len());
+            let mut i = 0;
+            while i < inner.len() {
+                out.push(inner[i]);
+                i += if inner[i] == b'"' && inner.get(i + 1) == Some(&b'"') {
+                    2
+                } else {
+                    1
+                };
+            }
+            std::borrow::Cow::Owned(out)
+        }
+        Some(inner) => std::borrow::Cow::Borrowed(inner),
+        None => std::borrow::Cow::Borrowed(field),
+    }
 }
 
 fn resolve(col: &ColumnRef, header: &[String], path: &str) -> Result<usize, ReadError> {
@@ -182,24 +254,40 @@ fn resolve(col: &ColumnRef, header: &[String], path: &str) -> Result<usize, Read
     })
 }
 
-/// Parses one numeric field: white space around it ignored; empty, a missing-value text, or a
-/// finite decimal number (a decimal comma when asked); anything else is unreadable.
+/// Parses one numeric field: white space and quotes around it ignored; empty, a missing-value
+/// marker (by its text, or by its value when it is a number: `-9999` matches `-9999.00` and
+/// `-9.999e3`), or a finite decimal number (a decimal comma when asked); anything else is
+/// unreadable.
 pub fn parse_value(s: &str, decimal_comma: bool, missing: &[String]) -> (f64, FieldState) {
     let t = s.trim();
+    let t = t
+        .strip_prefix('"')
+        .and_then(|r| r.strip_suffix('"'))
+        .map_or(t, str::trim);
     if t.is_empty() {
         return (f64::NAN, FieldState::Empty);
     }
     if missing.iter().any(|m| m.trim() == t) {
         return (f64::NAN, FieldState::Sentinel);
     }
-    let parsed = if decimal_comma {
-        t.replace(',', ".").parse::<f64>()
-    } else {
-        t.parse::<f64>()
+    let number = |x: &str| -> Option<f64> {
+        let parsed = if decimal_comma {
+            x.replace(',', ".").parse::<f64>()
+        } else {
+            x.parse::<f64>()
+        };
+        parsed.ok().filter(|v| v.is_finite())
     };
-    match parsed {
-        Ok(v) if v.is_finite() => (v, FieldState::Ok),
-        _ => (f64::NAN, FieldState::Unreadable),
+    match number(t) {
+        Some(v)
+            if missing
+                .iter()
+                .any(|m| number(m.trim()).is_some_and(|mv| mv.total_cmp(&v).is_eq())) =>
+        {
+            (f64::NAN, FieldState::Sentinel)
+        }
+        Some(v) => (v, FieldState::Ok),
+        None => (f64::NAN, FieldState::Unreadable),
     }
 }
 
@@ -234,6 +322,10 @@ struct Layout {
     projection: Arc<Vec<usize>>,
     /// Sentinels that are numbers: a value equal to one is looked at again as text.
     sentinel_values: Vec<f64>,
+    /// Fields may be quoted.
+    quoted: bool,
+    /// Fields in the header: a line with more (beyond empty trailing ones) is not read.
+    header_fields: usize,
 }
 
 impl Layout {
@@ -345,8 +437,17 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
             continue; // not even the header yet: read on
         }
         let bytes: &[u8] = &head;
+        if let Some(line) = bare_carriage_return(bytes) {
+            return Err(ReadError::BareCarriageReturn { path: p.clone(), line });
+        }
         let (header, start) = header_of(bytes, s, &p, &mut line_no)?;
-        layout = Some(make_layout(&header, s, &p)?);
+        // quoting is on when the header or the first data line holds a quote
+        let first_data = bytes[start..].split(|b| *b == b'\n').next().unwrap_or_default();
+        let quoted = bytes[..start].contains(&b'"') || first_data.contains(&b'"');
+        if s.decimal_comma && s.separator == b',' && !quoted {
+            return Err(ReadError::DecimalCommaSeparator { path: p.clone() });
+        }
+        layout = Some(make_layout(&header, s, &p, quoted)?);
         out.header = header;
         // room for the whole file, from the first block's bytes per line; zeroed memory is
         // mapped lazily, so the parsing threads touch it first, in parallel
@@ -414,6 +515,7 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         path: p.clone(),
         source: std::io::Error::other("reading thread failed"),
     })?;
+    out.unreadable.sort_by_key(|u| u.0);
     out.lines.truncate(filled);
     out.wall_ms.truncate(filled);
     for v in out.values.iter_mut() {
@@ -468,7 +570,14 @@ fn header_of(bytes: &[u8], s: &ReadSettings, p: &str, line_no: &mut usize) -> Re
     Ok((header, start))
 }
 
-fn make_layout(header: &[String], s: &ReadSettings, p: &str) -> Result<Layout, ReadError> {
+/// The line (1-based) of the first carriage return in `bytes` that is not followed by a line
+/// feed, if any (the end of `bytes` counts as a line feed).
+fn bare_carriage_return(bytes: &[u8]) -> Option<usize> {
+    let at = memchr::memchr_iter(b'\r', bytes).find(|&i| i + 1 < bytes.len() && bytes[i + 1] != b'\n')?;
+    Some(memchr::memchr_iter(b'\n', &bytes[..at]).count() + 1)
+}
+
+fn make_layout(header: &[String], s: &ReadSettings, p: &str, quoted: bool) -> Result<Layout, ReadError> {
     let time_idx = resolve(&s.time, header, p)?;
     let value_idx: Vec<usize> = s
         .values
@@ -499,6 +608,8 @@ fn make_layout(header: &[String], s: &ReadSettings, p: &str) -> Result<Layout, R
         schema,
         projection: Arc::new(projection),
         sentinel_values,
+        quoted,
+        header_fields: header.len(),
     })
 }
 
@@ -512,10 +623,53 @@ struct Share {
     recheck: Vec<u32>,
 }
 
-/// A block of whole lines as polars split it: the time texts and the value columns.
+/// A block of whole lines as polars split it: the time texts and the value columns, and the
+/// lines (indices within the block) with more fields than the header.
 struct Split {
     times: Vec<Utf8ViewArray>,
     values: Vec<Vec<PrimitiveArray<f64>>>,
+    long: Vec<(u32, usize)>,
+}
+
+/// Lines of a block (indices within it, with their number of fields) that have more fields than
+/// `header_fields`, not counting empty trailing ones.
+fn long_lines(block: &[u8], sep: u8, quoted: bool, header_fields: usize) -> Vec<(u32, usize)> {
+    let mut out = Vec::new();
+    let mut push_if_long = |k: usize, line: &[u8]| {
+        let line = line.strip_suffix(b"\r").unwrap_or(line);
+        let n = fields(line, sep, quoted)
+            .enumerate()
+            .filter(|(i, f)| *i < header_fields || !f.trim_ascii().is_empty())
+            .count();
+        if n > header_fields {
+            let all = fields(line, sep, quoted).count();
+            out.push((k as u32, all));
+        }
+    };
+    if quoted {
+        for (k, line) in block.split(|b| *b == b'\n').enumerate() {
+            push_if_long(k, line);
+        }
+        return out;
+    }
+    // unquoted: count separators per line; only lines with too many are looked at again
+    let (mut k, mut start, mut seps) = (0usize, 0usize, 0usize);
+    for i in memchr::memchr2_iter(b'\n', sep, block) {
+        if block[i] == b'\n' {
+            if seps >= header_fields {
+                push_if_long(k, &block[start..i]);
+            }
+            k += 1;
+            start = i + 1;
+            seps = 0;
+        } else {
+            seps += 1;
+        }
+    }
+    if start < block.len() && seps >= header_fields {
+        push_if_long(k, &block[start..]);
+    }
+    out
 }
 
 /// Lets polars split a block of whole lines into fields; the error is polars' message.
@@ -529,10 +683,12 @@ fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Resul
             .with_ignore_errors(true)
             .map_parse_options(|o| {
                 o.with_separator(s.separator)
-                    .with_quote_char(None)
+                    .with_quote_char(layout.quoted.then_some(b'"'))
                     .with_missing_is_null(false)
                     .with_truncate_ragged_lines(true)
-                    .with_decimal_comma(s.decimal_comma)
+                    // quoted decimal commas with a comma separator are read by flumerate's
+                    // own rule (every such value is looked at again)
+                    .with_decimal_comma(s.decimal_comma && s.separator != b',')
                     .with_encoding(CsvEncoding::LossyUtf8)
             })
             .into_reader_with_file_handle(Cursor::new(block))
@@ -561,7 +717,8 @@ fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Resul
                 Ok(ca.downcast_iter().cloned().collect())
             })
             .collect::<Result<_, String>>()?;
-        Ok(Split { times, values })
+        let long = long_lines(block, s.separator, layout.quoted, layout.header_fields);
+        Ok(Split { times, values, long })
     };
     (n_lines, split())
 }
@@ -581,7 +738,7 @@ fn take_block(
 ) -> Result<usize, ReadError> {
     let first_line = before + 1;
     let (n_lines, split) = split;
-    let Split { times, values, .. } = split.map_err(|message| ReadError::Polars {
+    let Split { times, values, long } = split.map_err(|message| ReadError::Polars {
         path: p.to_string(),
         from: first_line,
         to: first_line + n_lines.saturating_sub(1),
@@ -617,6 +774,22 @@ fn take_block(
         recheck.extend(sh.recheck);
     }
     out.empty_times += empty_times;
+    // lines with more fields than the header: no field of theirs is trusted
+    for &(k, n) in &long {
+        for v in out.values.iter_mut() {
+            v[base + k as usize] = f64::NAN;
+        }
+        out.unreadable.push((
+            first_line as u32 + k,
+            format!(
+                "{n} fields where the header has {}: not read (is the separator or the decimal mark right?)",
+                layout.header_fields
+            ),
+        ));
+    }
+    let long_rows: Vec<u32> = long.iter().map(|l| l.0).collect();
+    time_failed.retain(|k| long_rows.binary_search(k).is_err());
+    recheck.retain(|k| long_rows.binary_search(k).is_err());
     if time_failed.is_empty() && recheck.is_empty() {
         return Ok(before + n_lines);
     }
@@ -632,8 +805,10 @@ fn take_block(
         l.strip_suffix(b"\r").unwrap_or(l)
     };
     let field = |k: usize, idx: usize| -> String {
-        let text = line_text(k).split(|b| *b == s.separator).nth(idx).unwrap_or_default();
-        String::from_utf8_lossy(text).into_owned()
+        let text = fields(line_text(k), s.separator, layout.quoted)
+            .nth(idx)
+            .unwrap_or_default();
+        String::from_utf8_lossy(&unquote(text)).into_owned()
     };
     let mut rows: Vec<u32> = time_failed.iter().chain(&recheck).copied().collect();
     rows.sort_unstable();
@@ -882,10 +1057,10 @@ mod tests {
             unreadable += usize::from(state == FieldState::Unreadable);
             assert_eq!(raw.lines[k], k as u32 + 3, "line numbers count the preamble and header");
         }
-        // "-9999.0" is a number, not the sentinel text; " -9999 " is the sentinel
-        assert!((raw.values[0][5] + 9999.0).abs() < 1e-12);
+        // " -9999 " is the sentinel by its text, "-9999.0" by its value
+        assert!(raw.values[0][5].is_nan());
         assert!(raw.values[0][4].is_nan());
-        assert_eq!(raw.sentinel_fields, vec![3, 3]);
+        assert_eq!(raw.sentinel_fields, vec![4, 4]);
         assert_eq!(raw.empty_fields, vec![2, 2]);
         assert_eq!(raw.unreadable.len(), unreadable);
         assert!(raw
@@ -945,6 +1120,89 @@ mod tests {
             }
         }
         assert_eq!(raw.sha256, format!("{:x}", sha2::Sha256::digest(text.as_bytes())));
+    }
+
+    /// A missing-value marker matches by value as well as by text (issue: `-9999` must also
+    /// catch `-9999.00` and `-9.999e3`; common practice, no source).
+    #[test]
+    fn sentinels_match_by_value() {
+        let m = vec!["-9999".to_string()];
+        for t in ["-9999", "-9999.00", "-9.999e3", " -9999.0 ", "\"-9999\""] {
+            assert_eq!(parse_value(t, false, &m).1, FieldState::Sentinel, "{t}");
+        }
+        assert_eq!(parse_value("-9999,00", true, &m).1, FieldState::Sentinel);
+        assert_eq!(parse_value("-9998", false, &m).1, FieldState::Ok);
+        let text =
+            "x\ntime,stage,temp\n2026-01-01 00:00,-9999.00,1\n2026-01-01 00:15,-9.999e3,1\n2026-01-01 00:30,0.5,1\n";
+        let raw = read_text(text, &settings(b',', false));
+        assert!(raw.values[0][0].is_nan() && raw.values[0][1].is_nan());
+        assert_eq!(raw.sentinel_fields[0], 2);
+        assert!((raw.values[0][2] - 0.5).abs() < 1e-12);
+    }
+
+    /// A line with more fields than the header keeps its row (without values) and is listed
+    /// with its line; empty trailing fields are not more fields.
+    #[test]
+    fn long_lines_are_listed_not_cut() {
+        let text = "x\ntime,stage,temp\n2026-01-01 00:00,0.5,1\n2026-01-01 00:15,0,5,1\n2026-01-01 00:30,0.5,1,,\r\n2026-01-01 00:45,0.6,1";
+        let raw = read_text(text, &settings(b',', false));
+        assert_eq!(raw.lines, vec![3, 4, 5, 6]);
+        assert!(raw.values[0][1].is_nan(), "the long line gives no value");
+        assert!((raw.values[0][2] - 0.5).abs() < 1e-12, "empty trailing fields are fine");
+        assert_eq!(raw.unreadable.len(), 1);
+        assert_eq!(raw.unreadable[0].0, 4);
+        assert!(
+            raw.unreadable[0].1.contains("4 fields where the header has 3"),
+            "{:?}",
+            raw.unreadable
+        );
+        // across many blocks too (1 KiB blocks in unit tests)
+        let mut text = String::from("x\ntime,stage,temp\n");
+        for k in 0..300 {
+            let extra = if k % 50 == 7 { ",9" } else { "" };
+            text.push_str(&format!("2026-01-01 {:02}:{:02},0.5,1{extra}\n", k / 60, k % 60));
+        }
+        let raw = read_text(&text, &settings(b',', false));
+        let listed: Vec<u32> = raw.unreadable.iter().map(|u| u.0).collect();
+        assert_eq!(listed, vec![10, 60, 110, 160, 210, 260]);
+    }
+
+    /// Quoted fields: separators inside quotes do not split; a decimal comma with a comma
+    /// separator reads only when quoted.
+    #[test]
+    fn quoted_fields_and_decimal_commas() {
+        let text = "\"logger\"\n\"time\",\"stage\",\"temp\"\n\"2026-01-01 00:00\",\"0,5\",\"1,25\"\n\"2026-01-01 00:15\",\"0,75\",\"-9999\"\n";
+        let raw = read_text(text, &settings(b',', true));
+        assert_eq!(raw.header, vec!["time", "stage", "temp"]);
+        assert!((raw.values[0][0] - 0.5).abs() < 1e-12);
+        assert!((raw.values[1][0] - 1.25).abs() < 1e-12);
+        assert!((raw.values[0][1] - 0.75).abs() < 1e-12);
+        assert!(raw.values[1][1].is_nan());
+        assert!(raw.wall_ms.iter().all(|w| *w != NO_TIME));
+        // quoted with a point: fully quoted CSV
+        let text = "x\n\"time\",\"stage\",\"temp\"\n\"2026-01-01 00:00\",\"0.5\",\"1\"\n";
+        let raw = read_text(text, &settings(b',', false));
+        assert!((raw.values[0][0] - 0.5).abs() < 1e-12);
+        // unquoted: refused, with the fix
+        let dir = tempfile::tempdir().expect("tempdir");
+        let path = dir.path().join("l.csv");
+        std::fs::write(&path, "x\ntime,stage,temp\n2026-01-01 00:00,0,5,1\n").expect("write");
+        let e = read_logger(&path, &settings(b',', true), |_| {})
+            .expect_err("refused")
+            .to_string();
+        assert!(e.contains("decimal comma") && e.contains("fix:"), "{e}");
+    }
+
+    /// Lines ending in a bare carriage return are refused with the line and the fix.
+    #[test]
+    fn bare_carriage_returns_are_refused() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let path = dir.path().join("l.csv");
+        std::fs::write(&path, "x\rtime,stage,temp\r2026-01-01 00:00,0.5,1\r").expect("write");
+        let e = read_logger(&path, &settings(b',', false), |_| {})
+            .expect_err("refused")
+            .to_string();
+        assert!(e.contains("carriage return") && e.contains("fix:"), "{e}");
     }
 
     /// A preamble longer than a block and a line longer than a block: still one row per line,

@@ -505,7 +505,10 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
 /// maps to one instant: there the rule starts afresh in file order too, so the result is the
 /// same as in one pass (tested).
 pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
-    if is_newest_first(times) {
+    let order = FileOrder::of(times);
+    // a file out of order keeps its wall times for the repeated hour's second look
+    let wall = order.shuffled.then(|| times.to_vec());
+    let (days, mut notes) = if order.newest_first {
         // a newest-first export: the rule runs in time order, so from the file's end
         times.reverse();
         let (mut days, notes) = resolve_split(zone, times, 1 << 20);
@@ -514,74 +517,76 @@ pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize
         let n = times.len();
         let mut notes: Vec<(usize, TimeNote)> = notes.into_iter().map(|(i, note)| (n - 1 - i, note)).collect();
         notes.reverse();
-        settle_repeated_hour(zone, times, &mut notes);
-        return (days, notes);
+        (days, notes)
+    } else {
+        resolve_split(zone, times, 1 << 20)
+    };
+    if let Some(wall) = wall {
+        repeated_hour_by_occurrence(zone, &wall, times, &mut notes);
     }
-    let (days, mut notes) = resolve_split(zone, times, 1 << 20);
-    settle_repeated_hour(zone, times, &mut notes);
     (days, notes)
 }
 
-/// Whether the readings run newest first: more backward than forward steps between consecutive
-/// readable wall-clock times (up to 100 000 steps spread over the file are looked at).
-pub fn is_newest_first(wall: &[i64]) -> bool {
-    let n = wall.len();
-    let stride = (n / 100_000).max(1);
-    let (mut forward, mut backward) = (0usize, 0usize);
-    let mut last = NO_TIME;
-    for i in (0..n).step_by(stride) {
-        let w = wall[i];
-        if w == NO_TIME {
-            continue;
-        }
-        if last != NO_TIME {
-            forward += usize::from(w > last);
-            backward += usize::from(w < last);
-        }
-        last = w;
-    }
-    backward > forward
+/// How a file's readable wall-clock times run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct FileOrder {
+    /// More steps back than forward, and not out of order: newest first.
+    pub newest_first: bool,
+    /// More steps against the file's direction than a clock change or a few joined downloads
+    /// make (more than 10, and more than 1 % of the rows): out of order.
+    pub shuffled: bool,
 }
 
-/// A repeated-hour reading whose instant another reading of the same local time also took,
-/// while the other instant of that local time went to no reading, is moved to it. This happens
-/// only when the rows are out of order (merged or shuffled files), where the clock rule cannot
-/// see the clock step back: one local time seen twice in the repeated hour is one reading in
-/// summer time and one in standard time, whatever their order in the file. The note of the
-/// moved row changes with it.
-fn settle_repeated_hour(zone: &Zone, utc: &mut [i64], notes: &mut [(usize, TimeNote)]) {
+impl FileOrder {
+    /// Looks at every step between consecutive readable times.
+    pub fn of(wall: &[i64]) -> Self {
+        let (mut forward, mut backward, mut readable) = (0usize, 0usize, 0usize);
+        let mut last = NO_TIME;
+        for &w in wall.iter().filter(|w| **w != NO_TIME) {
+            readable += 1;
+            if last != NO_TIME {
+                forward += usize::from(w > last);
+                backward += usize::from(w < last);
+            }
+            last = w;
+        }
+        let against = forward.min(backward);
+        let shuffled = against > 10 && against * 100 > readable;
+        Self {
+            newest_first: backward > forward && !shuffled,
+            shuffled,
+        }
+    }
+}
+
+/// Whether the readings run newest first (see [`FileOrder`]).
+pub fn is_newest_first(wall: &[i64]) -> bool {
+    FileOrder::of(wall).newest_first
+}
+
+/// In a file out of order the clock cannot be seen to step back, so the repeated hour's readings
+/// are told apart by occurrence instead: of the rows with one repeated local time, in file order,
+/// the first, third, … are taken as summer time and the second, fourth, … as standard time.
+/// Notes change with them.
+fn repeated_hour_by_occurrence(zone: &Zone, wall: &[i64], utc: &mut [i64], notes: &mut [(usize, TimeNote)]) {
     use std::collections::HashMap;
+    let mut seen: HashMap<i64, usize> = HashMap::new();
     let ambiguous: Vec<usize> = (0..notes.len())
         .filter(|&k| matches!(notes[k].1, TimeNote::AmbiguousEarlier | TimeNote::AmbiguousLater))
         .collect();
-    if ambiguous.len() < 2 {
-        return;
-    }
-    // instant -> positions in `notes` of the rows that took it, in file order
-    let mut taken: HashMap<i64, Vec<usize>> = HashMap::new();
-    for &k in &ambiguous {
-        taken.entry(utc[notes[k].0]).or_default().push(k);
-    }
-    let mut moves: Vec<(usize, i64, TimeNote)> = Vec::new();
-    for (&instant, ks) in &taken {
-        if ks.len() < 2 {
-            continue;
-        }
-        let wall = instant + i64::from(zone.offset_at_utc(instant)) * 1000;
-        let Resolved::Ambiguous(early, late) = zone.resolve_exact(wall) else {
+    for k in ambiguous {
+        let row = notes[k].0;
+        let Resolved::Ambiguous(early, late) = zone.resolve_exact(wall[row]) else {
             continue;
         };
-        let (twin, k, note) = if instant == early {
-            (late, ks[ks.len() - 1], TimeNote::AmbiguousLater)
+        let n = seen.entry(wall[row]).or_insert(0);
+        let (t, note) = if *n % 2 == 0 {
+            (early, TimeNote::AmbiguousEarlier)
         } else {
-            (early, ks[0], TimeNote::AmbiguousEarlier)
+            (late, TimeNote::AmbiguousLater)
         };
-        if !taken.contains_key(&twin) {
-            moves.push((k, twin, note));
-        }
-    }
-    for (k, twin, note) in moves {
-        utc[notes[k].0] = twin;
+        *n += 1;
+        utc[row] = t;
         notes[k].1 = note;
     }
 }

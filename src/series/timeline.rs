@@ -19,7 +19,7 @@
 //! merged, shuffled, with repeats) is put in time order once, keeping one duration and one
 //! reference line per row.
 
-use super::time::NO_TIME;
+use super::time::{FileOrder, NO_TIME};
 
 /// At most this many groups of repeated instants whose values differ are listed (with the total).
 pub const MAX_LISTED: usize = 100;
@@ -35,8 +35,11 @@ pub struct Timeline {
     pub interval_ms: i64,
     /// Steps back in time between consecutive readable rows, in file order.
     pub backward_steps: usize,
-    /// Whether the readable rows run newest first (more steps back than forward).
+    /// Whether the readable rows run newest first ([`FileOrder`]).
     pub newest_first: bool,
+    /// Whether the readable rows are out of order, neither oldest nor newest first
+    /// ([`FileOrder`]).
+    pub shuffled: bool,
     /// Instants held by more than one row.
     pub repeated_instants: usize,
     /// Rows that do not count because another row holds their instant.
@@ -77,7 +80,7 @@ impl Timeline {
     /// none), `values` the value columns, stage or pressure first (NaN where unreadable), and
     /// `lines` each row's line.
     pub fn new(utc: &[i64], values: &[Vec<f64>], lines: &[u32]) -> Result<Self, TimelineError> {
-        let (mut forward, mut backward, mut equal) = (0usize, 0usize, 0usize);
+        let (mut backward, mut equal) = (0usize, 0usize);
         let mut last = NO_TIME;
         let mut readable = 0usize;
         for &t in utc {
@@ -86,7 +89,6 @@ impl Timeline {
             }
             readable += 1;
             if last != NO_TIME {
-                forward += usize::from(t > last);
                 backward += usize::from(t < last);
                 equal += usize::from(t == last);
             }
@@ -98,6 +100,7 @@ impl Timeline {
                 interval_ms,
                 backward_steps: 0,
                 newest_first: false,
+                shuffled: false,
                 repeated_instants: 0,
                 repeat_rows: 0,
                 differing: Vec::new(),
@@ -105,7 +108,7 @@ impl Timeline {
                 order: Order::Rising,
             });
         }
-        Self::sorted(utc, values, lines, readable, backward, backward > forward)
+        Self::sorted(utc, values, lines, readable, backward, FileOrder::of(utc))
     }
 
     fn sorted(
@@ -114,7 +117,7 @@ impl Timeline {
         lines: &[u32],
         readable: usize,
         backward_steps: usize,
-        newest_first: bool,
+        order: FileOrder,
     ) -> Result<Self, TimelineError> {
         let value = |i: u32| values.first().map_or(f64::NAN, |v| v[i as usize]);
         let mut idx: Vec<u32> = (0..utc.len() as u32).filter(|&i| utc[i as usize] != NO_TIME).collect();
@@ -180,7 +183,8 @@ impl Timeline {
         Ok(Self {
             interval_ms,
             backward_steps,
-            newest_first,
+            newest_first: order.newest_first,
+            shuffled: order.shuffled,
             repeated_instants,
             repeat_rows,
             differing,
