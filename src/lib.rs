@@ -37,6 +37,7 @@
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
+pub mod files;
 pub mod hydraulics;
 pub mod interp;
 pub mod rating;

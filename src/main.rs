@@ -14,6 +14,13 @@ use clap::Parser;
 static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
 
 fn main() -> ExitCode {
+    // Ctrl-C, SIGTERM, SIGHUP: remove this run's temporary files (after a commit under way has
+    // finished or rolled back) and stop; no output is left half-written under its name
+    let _ = ctrlc::set_handler(|| {
+        flumerate::files::remove_temporaries();
+        eprintln!("flumerate: interrupted; no output was changed by this run unless it had finished");
+        std::process::exit(130);
+    });
     let args = cli::Cli::parse();
     match cli::run(args) {
         Ok(code) => code,

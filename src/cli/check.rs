@@ -30,6 +30,7 @@ pub struct CheckArgs {
 }
 
 pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
+    super::output::check(&[("station file", &a.station)], &[("-o", a.out.output.as_deref())])?;
     let (station, model) = super::rate::load_model(&a.station)?;
     let units: Units = a.units.into();
     let (lu, _) = units.symbols();

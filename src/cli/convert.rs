@@ -11,7 +11,9 @@ use clap::Args;
 use flumerate::rating::fit_power_law;
 use flumerate::report::plot::{hydrograph, HydroBuckets};
 use flumerate::report::{sig, wrap, CAUTIONS};
-use flumerate::series::convert::{time_note_lines, Conversion, Counts, Flag, StageSource, Summaries};
+use flumerate::series::convert::{
+    time_note_lines, Conversion, Counts, Flag, Impossible, Plausible, StageSource, Summaries,
+};
 use flumerate::series::correct::{drift_points, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use flumerate::series::dense::DenseRating;
 use flumerate::series::output::{write_summary, SeriesWriter, TableFile};
@@ -23,7 +25,8 @@ use flumerate::tailwater::{Exit, Tailwater};
 use flumerate::uncertainty::{GumModel, Inputs};
 use serde_json::json;
 
-use super::output::{emit, write_atomic};
+use super::output::emit;
+use flumerate::files::OutputSet;
 
 /// Rows per output chunk.
 const CHUNK_ROWS: usize = 1 << 18;
@@ -168,6 +171,11 @@ fn resolve_settings(a: &ConvertArgs, l: &LoggerSpec) -> anyhow::Result<Resolved>
     } else {
         DEFAULT_FORMATS.iter().map(|s| s.to_string()).collect()
     };
+    for f in &a.time_format {
+        TimeFormat::check(f).map_err(|e| {
+            anyhow::anyhow!("--time-format: {e}\n  fix: use strftime directives such as %Y %m %d %H %M %S")
+        })?;
+    }
     let pressure = pick(&a.pressure_column, &l.pressure_column);
     let pressure_unit = pick(&a.pressure_unit, &l.pressure_unit);
     let mut values = vec![match &pressure {
@@ -286,6 +294,14 @@ fn side_file(path: &Path, prefix: &str, formats: &[TimeFormat], zone: &Zone) -> 
     })
 }
 
+/// At most this many line numbers are listed per kind in the provenance record (with the total).
+const MAX_LISTED_LINES: usize = 1000;
+
+/// A list of lines for the provenance record: the total and the first [`MAX_LISTED_LINES`].
+fn bounded_lines(lines: &[u32]) -> serde_json::Value {
+    json!({ "total": lines.len(), "first": &lines[..lines.len().min(MAX_LISTED_LINES)] })
+}
+
 fn lines_text(lines: &[u32], max: usize) -> String {
     let mut s: Vec<String> = lines.iter().take(max).map(|l| l.to_string()).collect();
     if lines.len() > max {
@@ -323,6 +339,29 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         }
     }
     let plot_format = super::output::plot_format(a.plot.as_deref())?;
+    let prov_path = a
+        .provenance
+        .clone()
+        .unwrap_or_else(|| PathBuf::from(format!("{}.provenance.json", a.output.display())));
+    let mut inputs_named: Vec<(&str, &Path)> = vec![("logger file", &a.logger), ("station file", &a.station)];
+    if let Some(v) = &a.visits {
+        inputs_named.push(("visits file", v));
+    }
+    if let Some(b) = &a.baro {
+        inputs_named.push(("barometric file", b));
+    }
+    super::output::check(
+        &inputs_named,
+        &[
+            ("-o", Some(&a.output)),
+            ("--daily", a.daily.as_deref()),
+            ("--monthly", a.monthly.as_deref()),
+            ("--plot", a.plot.as_deref()),
+            ("--provenance", Some(&prov_path)),
+        ],
+    )?;
+    // every output goes to a temporary first; all are renamed into place at the end, together
+    let mut outputs = OutputSet::new();
     let (station, model) = super::rate::load_model(&a.station)?;
     let logger = station.logger.clone().unwrap_or_default();
     let s = resolve_settings(&a, &logger)?;
@@ -402,6 +441,14 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         range: station.range,
         stage,
         zero_m: s.zero * m_per,
+        plausible: {
+            let dry_m = logger.dry_reading.unwrap_or(0.0) * m_per;
+            let max_depth_m = logger.max_depth.map_or_else(
+                || Plausible::default_max_depth_m(s.zero * m_per - dry_m, station.range.max_head_m),
+                |d| d * m_per,
+            );
+            Plausible::new(dry_m, max_depth_m)
+        },
         drift: Vec::new(),
         tailwater_column: s
             .tailwater_index
@@ -479,8 +526,13 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let empty_buckets = buckets.clone();
     let mut counts = Counts::default();
     let mut summaries = Summaries::default();
-    let writer = SeriesWriter::create(&a.output, s.zone.polars_name().as_deref())
-        .with_context(|| format!("cannot write {}", a.output.display()))?;
+    let series_file = outputs.create(&a.output)?;
+    let writer = SeriesWriter::new(
+        series_file,
+        TableFile::from_path(&a.output).expect("checked"),
+        s.zone.polars_name().as_deref(),
+    )
+    .with_context(|| format!("cannot write {}", a.output.display()))?;
     let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
     // a writer thread encodes finished chunks while the next ones are converted; the bounded
     // queue keeps at most one chunk waiting, so memory stays flat
@@ -550,7 +602,6 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     drop(tx);
     let (writer, written) = writing.join().expect("the writer thread does not panic");
     if let Err(e) = written {
-        writer.abandon();
         return Err(anyhow::Error::new(e).context(format!("writing {}", a.output.display())));
     }
     writer
@@ -564,11 +615,11 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     // 6. summaries, plot, provenance
     let daily = summaries.daily(&inputs);
     let monthly = summaries.monthly(&inputs);
-    if let Some(p) = &a.daily {
-        write_summary(p, "date", &daily).with_context(|| format!("writing {}", p.display()))?;
-    }
-    if let Some(p) = &a.monthly {
-        write_summary(p, "month", &monthly).with_context(|| format!("writing {}", p.display()))?;
+    for (p, key, rows) in [(&a.daily, "date", &daily), (&a.monthly, "month", &monthly)] {
+        if let Some(p) = p {
+            let format = TableFile::from_path(p).expect("checked");
+            write_summary(outputs.create(p)?, format, key, rows).with_context(|| format!("writing {}", p.display()))?;
+        }
     }
     timer.mark("summaries");
     if let (Some(p), Some(fmt)) = (&a.plot, plot_format) {
@@ -580,7 +631,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             (offset.abs() % 3600) / 60
         );
         let bytes = hydrograph(&buckets, &format!("{}: discharge", station.name), &clock, offset, fmt)?;
-        write_atomic(p, &bytes)?;
+        outputs.write(p, &bytes)?;
     }
     timer.mark("plot");
     let flag_counts: serde_json::Map<String, serde_json::Value> = Flag::ALL
@@ -631,15 +682,27 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "dense_table_max_relative_error": table.max_relative_error,
             "dense_table_top_m": table.top_m(),
             "rows_above_table_computed_exactly": counts.above_table,
-            "rows_without_discharge": counts.unrated_lines,
+            "rows_without_discharge": bounded_lines(&counts.unrated_lines),
             "rating_equation_exponent": exponent,
         },
         "rows": {
             "input_rows": n,
             "output_rows": rows_out,
-            "blank_lines": raw.blank_lines,
+            "blank_lines": bounded_lines(&raw.blank_lines),
             "per_flag": flag_counts,
-            "unreadable": raw.unreadable.iter().map(|(l, w)| json!({"line": l, "problem": w})).collect::<Vec<_>>(),
+            "unreadable": {
+                "total": raw.unreadable.len(),
+                "first": raw.unreadable.iter().take(MAX_LISTED_LINES).map(|(l, w)| json!({"line": l, "problem": w})).collect::<Vec<_>>(),
+            },
+            "impossible_readings": {
+                "rule": format!(
+                    "stage below the sensor's dry reading by more than {} m, above it by more than {} m of water, or a negative absolute pressure: flag missing",
+                    Plausible::BELOW_DRY_M,
+                    conv.plausible.max_stage_m - conv.plausible.min_stage_m - Plausible::BELOW_DRY_M
+                ),
+                "total": counts.impossible.len(),
+                "first": counts.impossible.iter().take(MAX_LISTED_LINES).map(|(l, w)| json!({"line": l, "problem": w.as_str()})).collect::<Vec<_>>(),
+            },
             "empty_stage_fields": raw.empty_fields.first().copied().unwrap_or(0),
             "sentinel_stage_fields": raw.sentinel_fields.first().copied().unwrap_or(0),
             "backward_time_steps": timeline.backward_steps,
@@ -650,20 +713,17 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
                 "total": timeline.differing_total,
                 "lines": timeline.differing,
             },
-            "time_notes": time_notes,
+            "time_notes": time_notes.iter().map(|(k, ls)| (k.to_string(), bounded_lines(ls))).collect::<serde_json::Map<_, _>>(),
             "submerged_estimated": counts.submerged_estimated,
             "submerged_not_estimated": counts.submerged_not_estimated,
         },
         "nominal_interval_s": interval_s,
         "cautions": CAUTIONS,
     });
-    let prov_path = a
-        .provenance
-        .clone()
-        .unwrap_or_else(|| PathBuf::from(format!("{}.provenance.json", a.output.display())));
     let mut prov_bytes = serde_json::to_vec_pretty(&provenance)?;
     prov_bytes.push(b'\n');
-    write_atomic(&prov_path, &prov_bytes)?;
+    outputs.write(&prov_path, &prov_bytes)?;
+    outputs.commit()?;
 
     timer.mark("provenance");
     // 7. the report
@@ -695,6 +755,24 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "unreadable rows (flag missing), lines: {}\n",
             lines_text(&ls, 20)
         ));
+    }
+    if !counts.impossible.is_empty() {
+        counts.impossible.sort_unstable();
+        for why in [
+            Impossible::NegativePressure,
+            Impossible::BelowSensor,
+            Impossible::AboveMaxDepth,
+        ] {
+            let ls: Vec<u32> = counts.impossible.iter().filter(|i| i.1 == why).map(|i| i.0).collect();
+            if !ls.is_empty() {
+                r.push_str(&format!(
+                    "impossible readings, {} (flag missing): {} row(s), lines {}\n",
+                    why.as_str(),
+                    ls.len(),
+                    lines_text(&ls, 10)
+                ));
+            }
+        }
     }
     if timeline.backward_steps > 0 {
         r.push_str(&format!(

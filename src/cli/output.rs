@@ -1,44 +1,51 @@
-//! Writing command output: standard output (a closed pipe is not an error) or a file written
-//! atomically (temporary file in the same folder, then rename), so an interrupted run never
-//! leaves a partial file under the final name.
+//! Writing command output: standard output (a closed pipe is not an error) or files, by the
+//! rules of [`flumerate::files`]: no output may be an input or another output, files are
+//! written to temporaries and renamed into place together when the command has succeeded.
 
 use std::io::Write;
 use std::path::Path;
 
 use anyhow::Context;
+use flumerate::files::{check_paths, OutputSet};
 
-/// Writes `bytes` to `path`, or to standard output when `path` is `None`.
-pub fn emit(bytes: &[u8], path: Option<&Path>) -> anyhow::Result<()> {
-    match path {
-        None => {
-            let mut out = std::io::stdout().lock();
-            match out.write_all(bytes).and_then(|_| out.flush()) {
-                Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
-                other => other.context("writing to standard output"),
-            }
-        }
-        Some(p) => write_atomic(p, bytes),
+/// Checks a command's output paths against its inputs and against each other before any work
+/// is done. `inputs` and `outputs` are (what or option, path); outputs not given are skipped.
+pub fn check(inputs: &[(&str, &Path)], outputs: &[(&str, Option<&Path>)]) -> anyhow::Result<()> {
+    let outs: Vec<(&str, &Path)> = outputs.iter().filter_map(|(f, p)| p.map(|p| (*f, p))).collect();
+    check_paths(inputs, &outs)?;
+    Ok(())
+}
+
+/// Writes to standard output; a closed pipe is not an error.
+pub fn print(bytes: &[u8]) -> anyhow::Result<()> {
+    let mut out = std::io::stdout().lock();
+    match out.write_all(bytes).and_then(|_| out.flush()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        other => other.context("writing to standard output"),
     }
 }
 
-/// Writes a whole file via a temporary sibling and a rename.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    path.file_name()
-        .with_context(|| format!("output path {} names no file", path.display()))?;
-    let tmp = flumerate::series::output::temp_path(path);
-    let result = (|| -> anyhow::Result<()> {
-        let mut f = std::fs::File::create(&tmp)
-            .with_context(|| format!("creating {} (does the folder exist and is it writable?)", tmp.display()))?;
-        f.write_all(bytes)
-            .with_context(|| format!("writing {}", tmp.display()))?;
-        f.sync_all().with_context(|| format!("flushing {}", tmp.display()))?;
-        flumerate::series::output::commit(&tmp, path)
-            .with_context(|| format!("renaming {} to {}", tmp.display(), path.display()))
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
+/// Writes `bytes` to `path`, or to standard output when `path` is `None`.
+pub fn emit(bytes: &[u8], path: Option<&Path>) -> anyhow::Result<()> {
+    emit_all(vec![(path, bytes)])
+}
+
+/// Writes several outputs: the files together (all or none), then what goes to standard
+/// output, in order.
+pub fn emit_all(items: Vec<(Option<&Path>, &[u8])>) -> anyhow::Result<()> {
+    let mut set = OutputSet::new();
+    let mut to_stdout = Vec::new();
+    for (path, bytes) in items {
+        match path {
+            Some(p) => set.write(p, bytes)?,
+            None => to_stdout.push(bytes),
+        }
     }
-    result
+    set.commit()?;
+    for b in to_stdout {
+        print(b)?;
+    }
+    Ok(())
 }
 
 /// The picture format of a `--plot FILE` flag, checked before any work is done.

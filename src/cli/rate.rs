@@ -26,7 +26,7 @@ pub enum UncertaintyMethod {
 /// reported (issue 3; JCGM 101 §8 compares the two intervals' end points).
 const MC_DEPARTURE_WARNING: f64 = 0.05;
 
-use super::{output::emit, OutputArgs, UnitsArg};
+use super::{output::emit_all, OutputArgs, UnitsArg};
 
 /// Table formats.
 #[derive(Debug, Clone, Copy, ValueEnum, Default)]
@@ -86,6 +86,10 @@ pub fn load_model(path: &std::path::Path) -> anyhow::Result<(Station, RatingMode
 }
 
 pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
+    super::output::check(
+        &[("station file", &a.station)],
+        &[("-o", a.out.output.as_deref()), ("--plot", a.plot.as_deref())],
+    )?;
     let plot_format = super::output::plot_format(a.plot.as_deref())?;
     let (station, model) = load_model(&a.station)?;
     let units: Units = a.units.into();
@@ -155,11 +159,15 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         TableFormat::Csv => report.to_csv()?,
         TableFormat::Json => report.to_json()?,
     };
-    if let (Some(path), Some(fmt)) = (&a.plot, plot_format) {
-        let img = flumerate::report::plot::xy_chart(&report.chart(), fmt)?;
-        super::output::write_atomic(path, &img)?;
+    let img = match (&a.plot, plot_format) {
+        (Some(path), Some(fmt)) => Some((path, flumerate::report::plot::xy_chart(&report.chart(), fmt)?)),
+        _ => None,
+    };
+    let mut outputs = vec![(a.out.output.as_deref(), &bytes[..])];
+    if let Some((path, img)) = &img {
+        outputs.push((Some(path.as_path()), &img[..]));
     }
-    emit(&bytes, a.out.output.as_deref())?;
+    emit_all(outputs)?;
     Ok(if a.strict && table.invalid_rows() > 0 {
         ExitCode::from(1)
     } else {

@@ -14,7 +14,7 @@ use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
 use flumerate::uncertainty::{GumModel, Inputs};
 use flumerate::units::Units;
 
-use super::output::write_atomic;
+use super::output::emit;
 use super::UnitsArg;
 
 /// Largest number of grid rows before a coarser step is chosen (one printed page).
@@ -52,6 +52,7 @@ pub struct SheetArgs {
 }
 
 pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
+    super::output::check(&[("station file", &a.station)], &[("-o", Some(&a.output))])?;
     let (station, model) = super::rate::load_model(&a.station)?;
     let units: Units = a.units.into();
     let per_unit = units.length_to_si(1.0);
@@ -231,7 +232,7 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
     if a.output.extension().and_then(|e| e.to_str()) != Some("html") {
         bail!("-o {}: the sheet is an .html file", a.output.display());
     }
-    write_atomic(&a.output, sheet.to_html().as_bytes())?;
+    emit(sheet.to_html().as_bytes(), Some(&a.output))?;
     println!("field sheet written: {}", a.output.display());
     Ok(ExitCode::SUCCESS)
 }

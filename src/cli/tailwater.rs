@@ -11,7 +11,7 @@ use flumerate::report::tailwater::TailwaterReport;
 use flumerate::tailwater::{check, Exit, Tailwater, Verdict};
 use flumerate::units::Units;
 
-use super::output::{emit, write_atomic};
+use super::output::emit_all;
 use super::rate::TableFormat;
 use super::{OutputArgs, UnitsArg};
 
@@ -35,6 +35,10 @@ pub struct TailwaterArgs {
 }
 
 pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
+    super::output::check(
+        &[("station file", &a.station)],
+        &[("-o", a.out.output.as_deref()), ("--plot", a.plot.as_deref())],
+    )?;
     let (station, model) = super::rate::load_model(&a.station)?;
     let Some(spec) = station.tailwater.clone() else {
         bail!(
@@ -68,11 +72,15 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
         TableFormat::Csv => report.to_csv()?,
         TableFormat::Json => report.to_json()?,
     };
-    if let (Some(path), Some(fmt)) = (&a.plot, plot_format) {
-        let img = xy_chart(&report.chart(), fmt)?;
-        write_atomic(path, &img)?;
+    let img = match (&a.plot, plot_format) {
+        (Some(path), Some(fmt)) => Some((path, xy_chart(&report.chart(), fmt)?)),
+        _ => None,
+    };
+    let mut outputs = vec![(a.out.output.as_deref(), &bytes[..])];
+    if let Some((path, img)) = &img {
+        outputs.push((Some(path.as_path()), &img[..]));
     }
-    emit(&bytes, a.out.output.as_deref())?;
+    emit_all(outputs)?;
     Ok(match result.verdict {
         Verdict::Modular => ExitCode::SUCCESS,
         Verdict::Drowns { .. } => ExitCode::from(1),

@@ -93,6 +93,61 @@ pub enum StageSource {
     },
 }
 
+/// The stages a logger can physically read. A reading outside them is flagged `missing` and
+/// listed, never rated (a logger lifted out of the water must not read as a dry channel, nor a
+/// reading in the wrong unit as a flood).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Plausible {
+    /// Lowest possible stage (m): [`Plausible::BELOW_DRY_M`] below the sensor's dry reading.
+    pub min_stage_m: f64,
+    /// Highest possible stage (m): the dry reading plus the most water over the sensor.
+    pub max_stage_m: f64,
+}
+
+impl Plausible {
+    /// How far below its dry reading a sensor may read before the reading is impossible (m):
+    /// a sensor in air reads its dry value give or take its drift and the barometric noise,
+    /// a few centimetres at most (common practice, no source).
+    pub const BELOW_DRY_M: f64 = 0.10;
+
+    /// From the sensor's dry reading and the most water it can have over it (m).
+    pub fn new(dry_reading_m: f64, max_depth_m: f64) -> Self {
+        Self {
+            min_stage_m: dry_reading_m - Self::BELOW_DRY_M,
+            max_stage_m: dry_reading_m + max_depth_m,
+        }
+    }
+
+    /// The default most water over the sensor (m): ten times the water over it at the top of
+    /// the rated range, at least 5 m (common practice, no source: far beyond any flood a
+    /// structure passes, well below a reading in the wrong unit).
+    pub fn default_max_depth_m(zero_m: f64, max_head_m: f64) -> f64 {
+        (10.0 * (zero_m + max_head_m)).max(5.0)
+    }
+}
+
+/// Why a reading is impossible.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Impossible {
+    /// An absolute pressure below zero.
+    NegativePressure,
+    /// A stage far below the sensor's dry reading.
+    BelowSensor,
+    /// More water over the sensor than it can have.
+    AboveMaxDepth,
+}
+
+impl Impossible {
+    /// In words, for reports.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Impossible::NegativePressure => "negative absolute pressure",
+            Impossible::BelowSensor => "more than 0.10 m below the sensor's dry reading",
+            Impossible::AboveMaxDepth => "more water over the sensor than [logger] max_depth",
+        }
+    }
+}
+
 /// Everything the conversion needs besides the rows.
 #[derive(Debug, Clone)]
 pub struct Conversion<'a> {
@@ -106,6 +161,8 @@ pub struct Conversion<'a> {
     pub stage: StageSource,
     /// Logger stage (m) with the water level with the crest.
     pub zero_m: f64,
+    /// The stages the logger can physically read.
+    pub plausible: Plausible,
     /// Usable drift points (UTC ms, staff − logger m), sorted.
     pub drift: Vec<(i64, f64)>,
     /// A logged tailwater: value-column index, metres per unit, logger reading at crest level.
@@ -165,6 +222,8 @@ pub struct Counts {
     pub temperature_fallback: usize,
     /// Rows where the model had no discharge (listed by line).
     pub unrated_lines: Vec<u32>,
+    /// Rows with an impossible reading (line, why), flagged `missing`.
+    pub impossible: Vec<(u32, Impossible)>,
 }
 
 impl Counts {
@@ -179,6 +238,7 @@ impl Counts {
         self.no_baro += o.no_baro;
         self.temperature_fallback += o.temperature_fallback;
         self.unrated_lines.extend(o.unrated_lines);
+        self.impossible.extend(o.impossible);
     }
 }
 
@@ -475,9 +535,25 @@ impl Conversion<'_> {
             } else {
                 drift_at_usable(&self.drift, t)
             };
+            let impossible = if matches!(self.stage, StageSource::Pressure { .. }) && values[0][i] < 0.0 {
+                Some(Impossible::NegativePressure)
+            } else if stage < self.plausible.min_stage_m {
+                Some(Impossible::BelowSensor)
+            } else if stage > self.plausible.max_stage_m {
+                Some(Impossible::AboveMaxDepth)
+            } else {
+                None
+            };
+            if let Some(why) = impossible {
+                counts.impossible.push((lines[i], why));
+            }
             c.time_ms.push(t);
             c.stage_m.push(stage);
-            c.head_m.push(stage - self.zero_m + drift);
+            c.head_m.push(if impossible.is_some() {
+                f64::NAN
+            } else {
+                stage - self.zero_m + drift
+            });
             c.line.push(lines[i]);
             c.counted_line.push(self.timeline.counted_line(i).unwrap_or(0));
         }

@@ -1,9 +1,10 @@
 //! Writing converted series and summaries with polars (CSV or Parquet), chunk by chunk, into a
-//! temporary file that is renamed into place only when complete.
+//! file the caller opened (a temporary of [`crate::files::OutputSet`], renamed into place only
+//! when the whole run has succeeded).
 
 use std::fs::File;
 use std::io::{BufWriter, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use polars::prelude::*;
 use polars_arrow::array::{Array, DictionaryArray, PrimitiveArray, Utf8ViewArray};
@@ -41,23 +42,6 @@ impl TableFile {
     }
 }
 
-/// A temporary sibling of `path`, renamed over it by [`commit`].
-pub fn temp_path(path: &Path) -> PathBuf {
-    let name = path
-        .file_name()
-        .map_or("out".into(), |n| n.to_string_lossy().to_string());
-    let dir = path
-        .parent()
-        .filter(|d| !d.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    dir.join(format!(".{name}.{}.tmp", std::process::id()))
-}
-
-/// Moves a finished temporary file into place.
-pub fn commit(tmp: &Path, path: &Path) -> std::io::Result<()> {
-    std::fs::rename(tmp, path)
-}
-
 enum Inner {
     Csv(polars::io::csv::write::BatchedWriter<File>),
     Parquet(Box<ParquetSink>),
@@ -66,8 +50,6 @@ enum Inner {
 /// Writes converted chunks.
 pub struct SeriesWriter {
     inner: Inner,
-    tmp: PathBuf,
-    path: PathBuf,
     tz: Option<TimeZone>,
 }
 
@@ -261,14 +243,10 @@ impl ParquetSink {
 }
 
 impl SeriesWriter {
-    /// Opens a writer for `path` (format from its extension); `zone` names the time zone of the
-    /// output's time column (UTC when `None`).
-    pub fn create(path: &Path, zone: Option<&str>) -> PolarsResult<Self> {
-        let format = TableFile::from_path(path)
-            .ok_or_else(|| polars_err!(ComputeError: "output {} must end in .csv or .parquet", path.display()))?;
+    /// A writer into `file` in `format`; `zone` names the time zone of the output's time
+    /// column (UTC when `None`).
+    pub fn new(file: File, format: TableFile, zone: Option<&str>) -> PolarsResult<Self> {
         let tz = TimeZone::opt_try_new(Some(zone.unwrap_or("UTC")))?;
-        let tmp = temp_path(path);
-        let file = File::create(&tmp)?;
         let inner = match format {
             TableFile::Csv => Inner::Csv(
                 CsvWriter::new(file)
@@ -279,12 +257,7 @@ impl SeriesWriter {
             ),
             TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(file, tz.as_ref())?)),
         };
-        Ok(Self {
-            inner,
-            tmp,
-            path: path.to_path_buf(),
-            tz,
-        })
+        Ok(Self { inner, tz })
     }
 
     /// Appends one chunk (taking its columns without copying them).
@@ -316,26 +289,18 @@ impl SeriesWriter {
         w.write_batch(&DataFrame::new(height, cols)?)
     }
 
-    /// Finishes the file and moves it into place.
+    /// Finishes the file.
     pub fn finish(self) -> PolarsResult<()> {
         match self.inner {
             Inner::Csv(mut w) => w.finish()?,
             Inner::Parquet(p) => p.finish()?,
         }
-        commit(&self.tmp, &self.path)?;
         Ok(())
-    }
-
-    /// Gives up: removes the temporary file.
-    pub fn abandon(self) {
-        let _ = std::fs::remove_file(&self.tmp);
     }
 }
 
-/// Writes summary rows to CSV or Parquet (atomically). `key` names the period column.
-pub fn write_summary(path: &Path, key: &str, rows: &[PeriodRow]) -> PolarsResult<()> {
-    let format = TableFile::from_path(path)
-        .ok_or_else(|| polars_err!(ComputeError: "summary {} must end in .csv or .parquet", path.display()))?;
+/// Writes summary rows to `file` as CSV or Parquet. `key` names the period column.
+pub fn write_summary(file: File, format: TableFile, key: &str, rows: &[PeriodRow]) -> PolarsResult<()> {
     let f = |g: fn(&PeriodRow) -> f64| -> Float64Chunked {
         rows.iter().map(|r| Some(g(r)).filter(|v| v.is_finite())).collect()
     };
@@ -360,20 +325,11 @@ pub fn write_summary(path: &Path, key: &str, rows: &[PeriodRow]) -> PolarsResult
         named(f(|r| r.covered_h), "covered_h"),
     ];
     let mut df = DataFrame::new(rows.len(), cols)?;
-    let tmp = temp_path(path);
-    let result = (|| -> PolarsResult<()> {
-        let file = File::create(&tmp)?;
-        match format {
-            TableFile::Csv => CsvWriter::new(file).include_header(true).finish(&mut df)?,
-            TableFile::Parquet => {
-                ParquetWriter::new(file).finish(&mut df)?;
-            }
+    match format {
+        TableFile::Csv => CsvWriter::new(file).include_header(true).finish(&mut df)?,
+        TableFile::Parquet => {
+            ParquetWriter::new(file).finish(&mut df)?;
         }
-        commit(&tmp, path)?;
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
     }
-    result
+    Ok(())
 }

@@ -255,6 +255,50 @@ impl TimeFormat {
         }
     }
 
+    /// Checks that a format is one chrono's strftime parser reads: an unknown directive (such
+    /// as `%Q`) or a lone `%` at the end is an error that names it.
+    pub fn check(text: &str) -> Result<(), String> {
+        use chrono::format::{Item, StrftimeItems};
+        if text.trim().is_empty() {
+            return Err("the time format is empty".into());
+        }
+        // the fast path's own `%.f` is chrono's too
+        if StrftimeItems::new(text).any(|i| matches!(i, Item::Error)) {
+            // a directive is %, optional modifiers, a letter: the shortest piece from each %
+            // that chrono reads is fine; a % that starts none is named
+            let ok = |d: &str| !StrftimeItems::new(d).any(|it| matches!(it, Item::Error));
+            let chars: Vec<(usize, char)> = text.char_indices().collect();
+            let mut bad = Vec::new();
+            let mut k = 0;
+            while k < chars.len() {
+                if chars[k].1 != '%' {
+                    k += 1;
+                    continue;
+                }
+                let piece = |len: usize| {
+                    let end = chars.get(k + len).map_or(text.len(), |c| c.0);
+                    &text[chars[k].0..end]
+                };
+                match (2..=4).find(|&len| k + len <= chars.len() && ok(piece(len))) {
+                    Some(len) => k += len,
+                    None => {
+                        bad.push(piece(2.min(chars.len() - k)).to_string());
+                        k += 2;
+                    }
+                }
+            }
+            return Err(format!(
+                "time format \"{text}\" has a directive strftime does not know{}",
+                if bad.is_empty() {
+                    String::new()
+                } else {
+                    format!(": {}", bad.join(", "))
+                }
+            ));
+        }
+        Ok(())
+    }
+
     /// The format as written.
     pub fn as_str(&self) -> &str {
         &self.text
@@ -832,6 +876,18 @@ mod tests {
             assert_eq!(days, days_one, "split at or after row {mid}");
             assert_eq!(notes, notes_one, "split at or after row {mid}");
         }
+    }
+
+    /// Unknown strftime directives are named (chrono's strftime items are the reference).
+    #[test]
+    fn unknown_directives_are_named() {
+        assert!(TimeFormat::check("%Y-%m-%d %H:%M:%S%.f").is_ok());
+        assert!(TimeFormat::check("%d.%m.%y %-H:%M").is_ok());
+        assert!(TimeFormat::check("%b %d %Y").is_ok());
+        let e = TimeFormat::check("%Y-%m-%d %Q").expect_err("unknown");
+        assert!(e.contains("%Q"), "{e}");
+        assert!(TimeFormat::check("%Y %").is_err(), "a lone % at the end");
+        assert!(TimeFormat::check("  ").is_err());
     }
 
     #[test]

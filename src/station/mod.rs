@@ -198,6 +198,14 @@ pub struct LoggerSpec {
     pub temperature_column: Option<String>,
     /// Water temperature (°C) where none is logged.
     pub water_temperature: Option<f64>,
+    /// The logger's stage with its sensor out of the water, in the stage unit (default 0: the
+    /// logger reads the depth over its sensor). A reading more than 0.10 m below it is
+    /// impossible.
+    pub dry_reading: Option<f64>,
+    /// The most water the sensor can have over it, in the stage unit (default: 10 × (zero +
+    /// the range's top head), at least 5 m). A reading more than this above the dry reading is
+    /// impossible.
+    pub max_depth: Option<f64>,
 }
 
 /// A loaded, checked station in SI units.
@@ -1141,6 +1149,18 @@ impl Ctx<'_> {
             Some(raw::RawFormats::One(f)) => vec![f.clone()],
             Some(raw::RawFormats::Many(v)) => v.clone(),
         };
+        if let Some(span) = l.time_format.as_ref().map(|f| f.span()) {
+            for f in &formats {
+                if let Err(e) = crate::series::time::TimeFormat::check(f) {
+                    return Err(self.err(
+                        span.clone(),
+                        "logger.time_format",
+                        e,
+                        "use strftime directives such as %Y %m %d %H %M %S (e.g. \"%Y-%m-%d %H:%M\")",
+                    ));
+                }
+            }
+        }
         let temperature = l
             .water_temperature
             .as_ref()
@@ -1177,6 +1197,25 @@ impl Ctx<'_> {
             pressure_unit: s(&l.pressure_unit),
             temperature_column: column(&l.temperature_column, "logger.temperature_column")?,
             water_temperature: temperature,
+            dry_reading: l
+                .dry_reading
+                .as_ref()
+                .map(|z| self.number(z, "logger.dry_reading"))
+                .transpose()?,
+            max_depth: l
+                .max_depth
+                .as_ref()
+                .map(|d| {
+                    self.bounded(
+                        d,
+                        "logger.max_depth",
+                        0.0,
+                        1.0e4,
+                        true,
+                        "give the most water the sensor can have over it, in the stage unit",
+                    )
+                })
+                .transpose()?,
         })
     }
 }

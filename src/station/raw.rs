@@ -153,4 +153,6 @@ pub struct RawLogger {
     pub pressure_unit: Option<Text>,
     pub temperature_column: Option<Spanned<RawColumn>>,
     pub water_temperature: Option<Num>,
+    pub dry_reading: Option<Num>,
+    pub max_depth: Option<Num>,
 }
