@@ -358,3 +358,70 @@ impl Drop for OutputSet {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// When a rename fails half-way, the outputs renamed before it get their previous contents
+    /// back and a new output that had no previous file is removed.
+    #[test]
+    fn a_failed_commit_puts_every_output_back() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let a = dir.path().join("a.csv");
+        let b = dir.path().join("b.csv");
+        let c = dir.path().join("c.json");
+        std::fs::write(&a, "old a").expect("write");
+        // c cannot be replaced by a file: it is a folder with something in it
+        std::fs::create_dir(&c).expect("mkdir");
+        std::fs::write(c.join("x"), "x").expect("write");
+        let mut set = OutputSet::new();
+        set.write(&a, b"new a").expect("stage a");
+        set.write(&b, b"new b").expect("stage b");
+        set.write(&c, b"new c").expect("stage c");
+        let err = set.commit().expect_err("c cannot be renamed over");
+        assert!(err.to_string().contains("c.json"), "{err}");
+        assert_eq!(std::fs::read_to_string(&a).expect("a"), "old a");
+        assert!(!b.exists(), "b had no previous file");
+        let left: Vec<_> = std::fs::read_dir(dir.path())
+            .expect("dir")
+            .filter_map(|e| e.ok())
+            .map(|e| e.file_name().to_string_lossy().to_string())
+            .filter(|n| n.starts_with('.'))
+            .collect();
+        assert!(left.is_empty(), "{left:?}");
+    }
+
+    #[test]
+    fn a_successful_commit_replaces_every_output_and_keeps_nothing_else() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let a = dir.path().join("a.csv");
+        std::fs::write(&a, "old a").expect("write");
+        let mut set = OutputSet::new();
+        set.write(&a, b"new a").expect("stage");
+        set.write(&dir.path().join("b.csv"), b"new b").expect("stage");
+        set.commit().expect("commit");
+        assert_eq!(std::fs::read_to_string(&a).expect("a"), "new a");
+        assert_eq!(std::fs::read_dir(dir.path()).expect("dir").count(), 2);
+    }
+
+    #[test]
+    fn paths_are_compared_as_files() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let input = dir.path().join("in.csv");
+        std::fs::write(&input, "x").expect("write");
+        let other_spelling = dir.path().join(".").join("in.csv");
+        assert!(matches!(
+            check_paths(&[("logger file", &input)], &[("-o", &other_spelling)]),
+            Err(FileError::OutputIsInput { .. })
+        ));
+        let new = dir.path().join("new.csv");
+        let new_again = dir.path().join("sub").join("..").join("new.csv");
+        std::fs::create_dir(dir.path().join("sub")).expect("mkdir");
+        assert!(matches!(
+            check_paths(&[], &[("-o", &new), ("--daily", &new_again)]),
+            Err(FileError::SameOutput { .. })
+        ));
+        assert!(check_paths(&[("logger file", &input)], &[("-o", &new)]).is_ok());
+    }
+}

@@ -18,7 +18,7 @@ fn main() -> ExitCode {
     // finished or rolled back) and stop; no output is left half-written under its name
     let _ = ctrlc::set_handler(|| {
         flumerate::files::remove_temporaries();
-        eprintln!("flumerate: interrupted; no output was changed by this run unless it had finished");
+        eprintln!("flumerate: interrupted; this run's temporary files are removed (outputs already renamed into place stay as written)");
         std::process::exit(130);
     });
     let args = cli::Cli::parse();

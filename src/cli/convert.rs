@@ -92,7 +92,7 @@ pub struct ConvertArgs {
     #[arg(long = "stage-unit")]
     pub stage_unit: Option<String>,
     /// Logger stage with the water level with the crest, in the stage unit
-    #[arg(long, allow_hyphen_values = true)]
+    #[arg(long, allow_hyphen_values = true, value_parser = super::finite_number)]
     pub zero: Option<f64>,
     /// Field separator (one character; `\t` for tab)
     #[arg(long)]
@@ -113,7 +113,7 @@ pub struct ConvertArgs {
     #[arg(long = "tailwater-column")]
     pub tailwater_column: Option<String>,
     /// Tailwater logger reading with the tailwater level with the crest, in the stage unit
-    #[arg(long = "tailwater-zero", allow_hyphen_values = true)]
+    #[arg(long = "tailwater-zero", allow_hyphen_values = true, value_parser = super::finite_number)]
     pub tailwater_zero: Option<f64>,
     /// Absolute-pressure column (name or position), instead of a stage column
     #[arg(long = "pressure-column")]
@@ -125,7 +125,7 @@ pub struct ConvertArgs {
     #[arg(long = "temperature-column")]
     pub temperature_column: Option<String>,
     /// Water temperature (°C) where none is logged [default: 10]
-    #[arg(long = "water-temperature")]
+    #[arg(long = "water-temperature", value_parser = super::finite_number, allow_hyphen_values = true)]
     pub water_temperature: Option<f64>,
 }
 

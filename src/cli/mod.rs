@@ -69,13 +69,13 @@ impl From<UnitsArg> for flumerate::units::Units {
 #[derive(Debug, Clone, clap::Args)]
 pub struct HeadArgs {
     /// First head above the crest, in the output unit [default: the station's range.min_head]
-    #[arg(long)]
+    #[arg(long, value_parser = finite_number, allow_hyphen_values = true)]
     pub from: Option<f64>,
     /// Last head above the crest, in the output unit [default: the station's range.max_head]
-    #[arg(long)]
+    #[arg(long, value_parser = finite_number, allow_hyphen_values = true)]
     pub to: Option<f64>,
     /// Head increment, in the output unit [default: from the 1-2-5 series, 50 to 100 rows]
-    #[arg(long)]
+    #[arg(long, value_parser = finite_number, allow_hyphen_values = true)]
     pub step: Option<f64>,
 }
 
@@ -102,6 +102,19 @@ pub struct OutputArgs {
     /// Write to FILE instead of standard output (written whole, then renamed into place)
     #[arg(short = 'o', long = "output", value_name = "FILE")]
     pub output: Option<PathBuf>,
+}
+
+/// A number given on the command line: finite (not `nan` or `inf`). Clap names the option in
+/// the error.
+pub fn finite_number(s: &str) -> Result<f64, String> {
+    let v: f64 = s.trim().parse().map_err(|_| format!("\"{s}\" is not a number"))?;
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(format!(
+            "\"{s}\" is not a finite number: give an ordinary decimal number"
+        ))
+    }
 }
 
 /// Runs one command and returns the exit code.

@@ -40,34 +40,34 @@ pub struct SectionArgs {
     #[arg(long, value_enum)]
     pub shape: ShapeArg,
     /// Width (rectangle) or bed width (trapezoid)
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub width: Option<f64>,
     /// Side slope, horizontal per 1 vertical (trapezoid, triangle)
-    #[arg(long = "side-slope")]
+    #[arg(long = "side-slope", value_parser = super::finite_number, allow_hyphen_values = true)]
     pub side_slope: Option<f64>,
     /// Inside diameter (circle)
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub diameter: Option<f64>,
     /// Surveyed points "offset,height offset,height ..." from left to right (points)
     #[arg(long, allow_hyphen_values = true)]
     pub points: Option<String>,
     /// Discharge (m³/s, or ft³/s with --units us)
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub discharge: f64,
     /// A depth at which to report the Froude number and specific energy
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub depth: Option<f64>,
     /// A specific energy at which to report both alternate depths
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub energy: Option<f64>,
     /// Manning's n (SI, s/m^(1/3)) for the normal depth; needs --slope
-    #[arg(long = "manning-n")]
+    #[arg(long = "manning-n", value_parser = super::finite_number, allow_hyphen_values = true)]
     pub manning_n: Option<f64>,
     /// Bed slope (m/m) for the normal depth; needs --manning-n
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub slope: Option<f64>,
     /// Velocity-distribution (Coriolis) coefficient
-    #[arg(long, default_value_t = 1.0)]
+    #[arg(long, default_value_t = 1.0, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub alpha: f64,
     /// Unit system of inputs and outputs
     #[arg(long, value_enum, default_value_t)]

@@ -41,7 +41,7 @@ pub struct SheetArgs {
     pub units: UnitsArg,
     /// Coarse head step between rows, in the output unit (columns are tenths of it)
     /// [default: 0.01 m or 0.1 ft, coarser if the range needs more than 45 rows]
-    #[arg(long)]
+    #[arg(long, value_parser = super::finite_number, allow_hyphen_values = true)]
     pub step: Option<f64>,
     /// Paper the print style is laid out for
     #[arg(long, value_enum, default_value_t)]

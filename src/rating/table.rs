@@ -6,7 +6,7 @@ use super::limits::broken_limits;
 use super::model::{RatingModel, RatingPoint};
 
 /// Largest number of rows a table may have; beyond it the step is almost surely a typo.
-pub const MAX_ROWS: usize = 2_000_000;
+pub const MAX_ROWS: usize = 100_000;
 
 /// The head sequence asked for cannot be built.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]

@@ -624,7 +624,7 @@ fn repeated_hour_by_occurrence(zone: &Zone, wall: &[i64], utc: &mut [i64], notes
             continue;
         };
         let n = seen.entry(wall[row]).or_insert(0);
-        let (t, note) = if *n % 2 == 0 {
+        let (t, note) = if n.is_multiple_of(2) {
             (early, TimeNote::AmbiguousEarlier)
         } else {
             (late, TimeNote::AmbiguousLater)

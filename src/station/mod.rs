@@ -238,11 +238,20 @@ pub struct Station {
 impl Station {
     /// Reads and checks a station file.
     pub fn load(path: &Path) -> Result<Self, LoadError> {
-        let text = std::fs::read_to_string(path).map_err(|source| LoadError::Read {
+        let bytes = std::fs::read(path).map_err(|source| LoadError::Read {
             path: path.display().to_string(),
             source,
         })?;
-        Ok(Self::from_toml_str(&text, &path.display().to_string())?)
+        let text = std::str::from_utf8(&bytes).map_err(|e| {
+            let at = e.valid_up_to();
+            LoadError::NotUtf8 {
+                path: path.display().to_string(),
+                offset: at,
+                line: bytes[..at].iter().filter(|b| **b == b'\n').count() + 1,
+                byte: bytes[at],
+            }
+        })?;
+        Ok(Self::from_toml_str(text, &path.display().to_string())?)
     }
 
     /// Parses and checks station-file text; `file` names it in errors.
@@ -281,10 +290,56 @@ pub enum LoadError {
         /// The I/O error.
         source: std::io::Error,
     },
+    /// The file is not UTF-8 text.
+    #[error("{path}:{line}: station files are UTF-8 text, but byte {offset} (0x{byte:02x}) is not UTF-8: the file was saved in another encoding (Latin-1 or Windows-1252?)\n  fix: save the file as UTF-8 (in most editors: Save as… → encoding UTF-8), or convert it: iconv -f WINDOWS-1252 -t UTF-8 {path} > fixed.toml")]
+    NotUtf8 {
+        /// The path.
+        path: String,
+        /// Byte offset of the first byte that is not UTF-8 (0-based).
+        offset: usize,
+        /// Its line.
+        line: usize,
+        /// The byte.
+        byte: u8,
+    },
     /// The file is not a valid station file.
     #[error(transparent)]
     Invalid(#[from] StationError),
 }
+
+/// Text with its control characters (escape sequences that would drive a terminal, line
+/// breaks inside a name) written as `\u{1b}`, so that a name is shown as it is, never obeyed.
+pub fn escape_controls(s: &str) -> String {
+    if !s.chars().any(char::is_control) {
+        return s.to_string();
+    }
+    s.chars()
+        .map(|c| {
+            if c.is_control() {
+                format!("\\u{{{:x}}}", c as u32)
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+/// A number as a person reads it: huge and tiny ones in exponent notation (`1.7e308`), not
+/// three hundred digits.
+fn shown(v: f64) -> String {
+    if v != 0.0 && !(1e-4..1e6).contains(&v.abs()) {
+        format!("{v:e}")
+    } else {
+        v.to_string()
+    }
+}
+
+/// The most points a surveyed section may have.
+pub const MAX_POINTS: usize = 10_000;
+
+/// The longest dimension a station file may give (m): no measuring structure is a kilometre
+/// wide, and a larger number is a typing or unit error.
+pub const MAX_LENGTH_M: f64 = 1000.0;
 
 struct Ctx<'a> {
     file: &'a str,
@@ -347,16 +402,30 @@ impl Ctx<'_> {
             Err(self.err(
                 n.span(),
                 key,
-                format!("{v} is out of range: it must be {lo_word} {lo} and at most {hi}"),
+                format!(
+                    "{} is out of range: it must be {lo_word} {lo} and at most {hi}",
+                    shown(v)
+                ),
                 why.to_string(),
             ))
         }
     }
 
-    /// A length > 0 in the file's unit, returned in metres.
+    /// A length > 0 in the file's unit, at most [`MAX_LENGTH_M`], returned in metres.
     fn positive_length(&self, n: &Num, key: &str, unit: LengthUnit, fix: &str) -> Result<f64, StationError> {
         let v = self.number(n, key)?;
-        if v > 0.0 {
+        if v * unit.metres() > MAX_LENGTH_M {
+            Err(self.err(
+                n.span(),
+                key,
+                format!(
+                    "{} {} is longer than any measuring structure ({MAX_LENGTH_M} m at most)",
+                    shown(v),
+                    unit.symbol()
+                ),
+                "check the number and the file's length_unit",
+            ))
+        } else if v > 0.0 {
             Ok(v * unit.metres())
         } else {
             Err(self.err(
@@ -500,6 +569,17 @@ impl Ctx<'_> {
     fn points(&self, pts: &Spanned<Vec<Vec<f64>>>, key: &str, unit: LengthUnit) -> Result<Section, StationError> {
         let span = pts.span();
         let list = self.pairs(pts, key, "give each point as [offset, height]")?;
+        if list.len() > MAX_POINTS {
+            return Err(self.err(
+                span,
+                key,
+                format!(
+                    "{} points are more than the {MAX_POINTS} a section may have",
+                    list.len()
+                ),
+                "thin the survey: points closer than a centimetre or on a straight line add nothing",
+            ));
+        }
         if list.len() < 3 {
             return Err(self.err(
                 span,
@@ -591,7 +671,7 @@ impl Ctx<'_> {
     fn build(&self, raw: RawStation) -> Result<Station, StationError> {
         let doc = 0..0;
         let name = match &raw.name {
-            Some(n) if !n.get_ref().trim().is_empty() => n.get_ref().trim().to_string(),
+            Some(n) if !n.get_ref().trim().is_empty() => escape_controls(n.get_ref().trim()),
             Some(n) => {
                 return Err(self.err(
                     n.span(),
@@ -941,8 +1021,8 @@ impl Ctx<'_> {
 
         Ok(Station {
             name,
-            datum: raw.datum.as_ref().map(|d| d.get_ref().trim().to_string()),
-            source: self.file.to_string(),
+            datum: raw.datum.as_ref().map(|d| escape_controls(d.get_ref().trim())),
+            source: escape_controls(self.file),
             sha256: {
                 use sha2::Digest;
                 format!("{:x}", sha2::Sha256::digest(self.text.as_bytes()))

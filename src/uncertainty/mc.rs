@@ -30,6 +30,12 @@ const NORMAL_SPAN: f64 = 4.0;
 /// Reach of a normal head input beyond the rated range, in standard uncertainties.
 const HEAD_REACH: f64 = 8.0;
 
+/// The most draws a run takes: twice the 10⁶ JCGM 101 §7.2 suggests, about 280 MB of draws.
+pub const MAX_DRAWS: usize = 2_000_000;
+
+/// The most worker threads a run takes.
+pub const MAX_THREADS: usize = 256;
+
 /// Monte Carlo settings.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct McOptions {
@@ -74,6 +80,22 @@ pub enum McError {
     TooFewDraws {
         /// Draws asked for.
         draws: usize,
+    },
+    /// More draws than the run may hold in memory.
+    #[error("{draws} draws are more than {max} (about 140 bytes each are held in memory); JCGM 101 §7.2 suggests 10⁶ for a 95 % interval good to two digits\n  fix: give --draws {max} or fewer")]
+    TooManyDraws {
+        /// Draws asked for.
+        draws: usize,
+        /// The most allowed.
+        max: usize,
+    },
+    /// A thread count out of range.
+    #[error("{threads} worker threads: give 1 to {max} (--threads)")]
+    Threads {
+        /// Threads asked for.
+        threads: usize,
+        /// The most allowed.
+        max: usize,
     },
     /// The perturbed model could not be built.
     #[error("perturbed rating model: {0}")]
@@ -218,6 +240,18 @@ pub fn monte_carlo(
 ) -> Result<Vec<Option<McRow>>, McError> {
     if opts.draws < 1000 {
         return Err(McError::TooFewDraws { draws: opts.draws });
+    }
+    if opts.draws > MAX_DRAWS {
+        return Err(McError::TooManyDraws {
+            draws: opts.draws,
+            max: MAX_DRAWS,
+        });
+    }
+    if opts.threads == 0 || opts.threads > MAX_THREADS {
+        return Err(McError::Threads {
+            threads: opts.threads,
+            max: MAX_THREADS,
+        });
     }
     if heads_m.is_empty() {
         return Ok(Vec::new());
