@@ -5,6 +5,7 @@ mod common;
 mod integration {
     pub mod cli;
     pub mod convert;
+    pub mod fuzz;
     pub mod hostile;
     pub mod malformed;
     pub mod order;
