@@ -237,19 +237,19 @@ fn logger_case(bytes: &[u8], dir: &Path, variant: usize) {
         separator,
         decimal_comma,
         skip_lines: variant / 4 % 3,
-        has_header: variant % 7 != 0,
-        time: ColumnRef::parse(if variant % 5 == 0 { "1" } else { "time" }),
+        has_header: !variant.is_multiple_of(7),
+        time: ColumnRef::parse(if variant.is_multiple_of(5) { "1" } else { "time" }),
         formats: ["%Y-%m-%d %H:%M", "%Y-%m-%d %H:%M:%S", "%d.%m.%Y %H:%M"]
             .iter()
             .map(|f| TimeFormat::new(f))
             .collect(),
-        values: vec![ColumnRef::parse(if variant % 3 == 0 { "2" } else { "stage" })],
+        values: vec![ColumnRef::parse(if variant.is_multiple_of(3) { "2" } else { "stage" })],
         missing: vec!["-9999".into(), String::new(), "ERR".into()],
     };
     let Ok(mut raw) = read_logger(&path, &s, |_| {}) else {
         return;
     };
-    let zone = if variant % 2 == 0 {
+    let zone = if variant.is_multiple_of(2) {
         Zone::parse("Europe/Berlin").expect("zone")
     } else {
         Zone::Fixed(3600)
@@ -358,7 +358,7 @@ fn fuzz_station_loader_logger_reader_and_conversion() {
         let t0 = Instant::now();
         // nine library cases (station and logger by turns) for each whole conversion
         if lib_cases % 10 != 9 || (deadline.is_none() && bin_cases >= short_bin) {
-            if lib_cases % 2 == 0 {
+            if lib_cases.is_multiple_of(2) {
                 let s = mutate(
                     &stations[r.below(stations.len())],
                     &stations[r.below(stations.len())],
