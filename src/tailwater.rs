@@ -418,38 +418,144 @@ pub fn head_for_discharge_m(model: &RatingModel, q: f64, upper_hint_m: f64) -> R
     Ok(0.5 * (lo + hi))
 }
 
-/// Whether every discharge in `discharges` is modular with the crest raised by `raise_m` (the
-/// approach bed and the tailwater keep their elevations).
+/// Heads on which drowning is looked for between the ends of the range checked, whatever the
+/// table's step: the verdict depends on the range, never on `--step`.
+pub const SCAN_POINTS: usize = 400;
+
+/// Drowning onsets are found to this head (m): 0.1 mm.
+pub const ONSET_TOLERANCE_M: f64 = 1e-4;
+
+/// How far the tailwater drowns the control at head `h`: submergence minus modular limit
+/// (> 0 drowned), with the rating point, or `None` where the model or the tailwater has no value.
+fn excess_at(model: &RatingModel, exit: &Exit, tailwater: &Tailwater, h: f64) -> Option<(f64, TailwaterRow)> {
+    let p = model.point(h).ok()?;
+    let row = check_point(model, exit, tailwater, &p).ok()?;
+    Some((row.submergence - row.modular_limit, row))
+}
+
+/// A stretch of the range over which the tailwater drowns the control.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DrownedBand {
+    /// Discharge where drowning starts (m³/s).
+    pub from_m3s: f64,
+    /// Its gauged head (m).
+    pub from_head_m: f64,
+    /// Discharge where it ends (m³/s): the top of the range checked when `to_top`.
+    pub to_m3s: f64,
+    /// Its gauged head (m).
+    pub to_head_m: f64,
+    /// The band starts at the bottom of the range checked (drowned there already).
+    pub from_bottom: bool,
+    /// The band reaches the top of the range checked ("upward").
+    pub to_top: bool,
+}
+
+/// The head (m) between `a` (excess `ea`) and `b` where the excess changes sign, by bisection to
+/// [`ONSET_TOLERANCE_M`]. The head returned is the bracket's end on the modular side, so a band
+/// bounded by two such heads covers all of the drowned stretch (errs on the safe side by less
+/// than the tolerance). Where the model fails inside, the bracket found so far is used.
+fn crossing_head(model: &RatingModel, exit: &Exit, tailwater: &Tailwater, a: f64, ea: f64, b: f64) -> f64 {
+    let (mut lo, mut hi, drowned_lo) = (a, b, ea > 0.0);
+    while hi - lo > ONSET_TOLERANCE_M {
+        let mid = 0.5 * (lo + hi);
+        match excess_at(model, exit, tailwater, mid) {
+            Some((e, _)) if (e > 0.0) == drowned_lo => lo = mid,
+            Some(_) => hi = mid,
+            None => break,
+        }
+    }
+    if drowned_lo {
+        hi
+    } else {
+        lo
+    }
+}
+
+/// Every band of heads in `[lo_m, hi_m]` where the tailwater drowns the control: the excess is
+/// scanned at [`SCAN_POINTS`] heads and each change of sign is refined by bisection to
+/// [`ONSET_TOLERANCE_M`] of head.
+pub fn drowned_bands(
+    model: &RatingModel,
+    exit: &Exit,
+    tailwater: &Tailwater,
+    lo_m: f64,
+    hi_m: f64,
+) -> Vec<DrownedBand> {
+    let n = SCAN_POINTS;
+    let scan: Vec<(f64, Option<(f64, TailwaterRow)>)> = (0..n)
+        .map(|k| {
+            let h = lo_m + (hi_m - lo_m) * k as f64 / (n - 1) as f64;
+            (h, excess_at(model, exit, tailwater, h))
+        })
+        .collect();
+    let q_at = |h: f64| model.discharge_m3s(h).unwrap_or(f64::NAN);
+    let mut bands = Vec::new();
+    let mut open: Option<(f64, bool)> = None; // (start head, from the bottom)
+    let mut last: Option<(f64, f64)> = None; // last head with a value, and its excess
+    for (k, (h, v)) in scan.iter().enumerate() {
+        let Some((e, _)) = v else { continue };
+        let drowned = *e > 0.0;
+        match (open, last) {
+            (None, None) if drowned => open = Some((*h, true)),
+            (None, Some((hp, ep))) if drowned => {
+                open = Some((crossing_head(model, exit, tailwater, hp, ep, *h), false));
+            }
+            (Some((start, bottom)), Some((hp, ep))) if !drowned => {
+                let end = crossing_head(model, exit, tailwater, hp, ep, *h);
+                bands.push(DrownedBand {
+                    from_m3s: q_at(start),
+                    from_head_m: start,
+                    to_m3s: q_at(end),
+                    to_head_m: end,
+                    from_bottom: bottom,
+                    to_top: false,
+                });
+                open = None;
+            }
+            _ => {}
+        }
+        last = Some((*h, *e));
+        if k == n - 1 {
+            if let Some((start, bottom)) = open.take() {
+                bands.push(DrownedBand {
+                    from_m3s: q_at(start),
+                    from_head_m: start,
+                    to_m3s: q_at(*h),
+                    to_head_m: *h,
+                    from_bottom: bottom,
+                    to_top: true,
+                });
+            }
+        }
+    }
+    bands
+}
+
+/// Whether the discharges from `q_lo` to `q_hi` are all modular with the crest raised by `raise_m`
+/// (the approach bed and the tailwater keep their elevations), judged as [`drowned_bands`] does.
 fn modular_with_raise(
     model: &RatingModel,
     exit: &Exit,
     tailwater: &Tailwater,
-    discharges: &[f64],
+    (q_lo, q_hi): (f64, f64),
     raise_m: f64,
 ) -> Result<bool, TailwaterError> {
     let mut s = model.structure().clone();
     s.sill_height_m += raise_m;
     let raised = RatingModel::new(s)?;
     let tw = tailwater.with_crest_raised(raise_m);
-    let mut hint = 0.1;
-    for &q in discharges {
-        let h = head_for_discharge_m(&raised, q, hint)?;
-        hint = h;
-        let p = raised.point(h)?;
-        if !check_point(&raised, exit, &tw, &p)?.modular {
-            return Ok(false);
-        }
-    }
-    Ok(true)
+    let h_lo = head_for_discharge_m(&raised, q_lo, 0.1)?;
+    let h_hi = head_for_discharge_m(&raised, q_hi, h_lo)?;
+    Ok(drowned_bands(&raised, exit, &tw, h_lo, h_hi).is_empty())
 }
 
-/// The smallest crest raise (m, rounded up to the next millimetre) that keeps every discharge of
-/// `discharges` modular, or `None` when none up to 2 m does.
+/// The smallest crest raise (m, rounded up to the next millimetre) that keeps every discharge
+/// from `q_lo` to `q_hi` modular, or `None` when none up to 2 m does.
 pub fn required_crest_raise_m(
     model: &RatingModel,
     exit: &Exit,
     tailwater: &Tailwater,
-    discharges: &[f64],
+    discharges: (f64, f64),
 ) -> Result<Option<f64>, TailwaterError> {
     if modular_with_raise(model, exit, tailwater, discharges, 0.0)? {
         return Ok(Some(0.0));
@@ -509,63 +615,110 @@ pub fn submerged_discharge_estimate_m3s(
 }
 
 /// How the check over a range of discharges came out.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Verdict {
-    /// Modular at every discharge checked.
+    /// Modular at every head of the range checked.
     Modular,
-    /// Drowned from this discharge up.
+    /// Drowned over one or more bands of the range.
     Drowns {
-        /// First drowned discharge (m³/s).
-        from_m3s: f64,
-        /// Its gauged head (m).
-        from_head_m: f64,
-        /// Crest raise (m) that would keep every discharge checked modular, if one up to 2 m does.
+        /// The drowned bands, lowest first.
+        bands: Vec<DrownedBand>,
+        /// Crest raise (m) that would keep every discharge of the range modular, if one up to 2 m
+        /// does.
         crest_raise_m: Option<f64>,
     },
+}
+
+/// Where a row of the check sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RowKind {
+    /// A head of the table asked for.
+    Table,
+    /// Drowning starts here (a root between table rows).
+    DrownsFrom,
+    /// Drowning ends here (a root between table rows).
+    ModularFrom,
 }
 
 /// The tailwater check over a list of heads.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TailwaterCheck {
-    /// One entry per head asked for, in order: the row, or why it could not be computed.
-    pub rows: Vec<(f64, Result<TailwaterRow, String>)>,
+    /// One entry per head asked for, in order, with the band edges inserted where they fall:
+    /// the row, or why it could not be computed.
+    pub rows: Vec<(f64, RowKind, Result<TailwaterRow, String>)>,
     /// The verdict.
     pub verdict: Verdict,
 }
 
-/// Checks the structure at each head of `heads_m` against the tailwater.
+impl TailwaterCheck {
+    /// The drowned bands (none when modular).
+    pub fn bands(&self) -> &[DrownedBand] {
+        match &self.verdict {
+            Verdict::Modular => &[],
+            Verdict::Drowns { bands, .. } => bands,
+        }
+    }
+}
+
+/// Checks the structure against the tailwater over the heads `heads_m` (at least one): the
+/// table's rows at those heads, and the verdict from the drowned bands found by root finding
+/// between the lowest and highest head ([`drowned_bands`]), whose edges are inserted as rows.
 pub fn check(
     model: &RatingModel,
     exit: &Exit,
     tailwater: &Tailwater,
     heads_m: &[f64],
 ) -> Result<TailwaterCheck, TailwaterError> {
-    let mut rows = Vec::with_capacity(heads_m.len());
+    let mut rows: Vec<(f64, RowKind, Result<TailwaterRow, String>)> = Vec::with_capacity(heads_m.len() + 4);
+    let row_at = |h: f64| -> Result<Result<TailwaterRow, String>, TailwaterError> {
+        Ok(match model.point(h) {
+            Ok(p) => Ok(check_point(model, exit, tailwater, &p)?),
+            Err(e) => Err(e.to_string()),
+        })
+    };
     for &h in heads_m {
-        let row = match model.point(h) {
-            Ok(p) => check_point(model, exit, tailwater, &p)?,
-            Err(e) => {
-                rows.push((h, Err(e.to_string())));
-                continue;
-            }
-        };
-        rows.push((h, Ok(row)));
+        rows.push((h, RowKind::Table, row_at(h)?));
     }
-    let first_drowned = rows
-        .iter()
-        .find_map(|(_, r)| r.as_ref().ok().filter(|r| !r.modular).copied());
-    let verdict = match first_drowned {
-        None => Verdict::Modular,
-        Some(row) => {
-            let discharges: Vec<f64> = rows
-                .iter()
-                .filter_map(|(_, r)| r.as_ref().ok().map(|r| r.discharge_m3s))
-                .collect();
-            Verdict::Drowns {
+    let lo = heads_m.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = heads_m.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if !(lo.is_finite() && hi.is_finite()) {
+        return Ok(TailwaterCheck {
+            rows,
+            verdict: Verdict::Modular,
+        });
+    }
+    let bands = if hi > lo {
+        drowned_bands(model, exit, tailwater, lo, hi)
+    } else {
+        // one head: drowned or not there
+        match excess_at(model, exit, tailwater, lo) {
+            Some((e, row)) if e > 0.0 => vec![DrownedBand {
                 from_m3s: row.discharge_m3s,
-                from_head_m: row.head_m,
-                crest_raise_m: required_crest_raise_m(model, exit, tailwater, &discharges)?,
-            }
+                from_head_m: lo,
+                to_m3s: row.discharge_m3s,
+                to_head_m: lo,
+                from_bottom: true,
+                to_top: true,
+            }],
+            _ => Vec::new(),
+        }
+    };
+    for b in &bands {
+        if !b.from_bottom {
+            rows.push((b.from_head_m, RowKind::DrownsFrom, row_at(b.from_head_m)?));
+        }
+        if !b.to_top {
+            rows.push((b.to_head_m, RowKind::ModularFrom, row_at(b.to_head_m)?));
+        }
+    }
+    rows.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let verdict = if bands.is_empty() {
+        Verdict::Modular
+    } else {
+        let (q_lo, q_hi) = (model.discharge_m3s(lo)?, model.discharge_m3s(hi)?);
+        Verdict::Drowns {
+            crest_raise_m: required_crest_raise_m(model, exit, tailwater, (q_lo, q_hi))?,
+            bands,
         }
     };
     Ok(TailwaterCheck { rows, verdict })

@@ -4,7 +4,7 @@ use serde_json::{json, Map, Value};
 
 use super::plot::{Line, XyChart};
 use super::{sig, wrap, CAUTIONS};
-use crate::tailwater::{TailwaterCheck, TailwaterRow, Verdict};
+use crate::tailwater::{DrownedBand, RowKind, TailwaterCheck, TailwaterRow, Verdict};
 use crate::units::Units;
 use plotters::style::RGBColor;
 
@@ -56,54 +56,95 @@ impl TailwaterReport<'_> {
         ]
     }
 
+    /// The top discharge of the range checked (m³/s).
+    fn top_m3s(&self) -> f64 {
+        self.check
+            .rows
+            .iter()
+            .filter_map(|(_, _, r)| r.as_ref().ok())
+            .map(|r| r.discharge_m3s)
+            .fold(f64::NAN, f64::max)
+    }
+
+    /// One band in words: "drowned from Q (h1 = h) to Q (h1 = h)", "… upward" only when it
+    /// reaches the top of the range checked.
+    pub fn band_words(&self, b: &DrownedBand) -> String {
+        let (lu, qu) = self.units.symbols();
+        let q = |v: f64| sig(self.units.discharge_from_si(v), 4);
+        let h = |v: f64| sig(self.units.length_from_si(v), 4);
+        let from = if b.from_bottom {
+            format!(
+                "already at the bottom of the range checked, {} {qu} (h1 = {} {lu})",
+                q(b.from_m3s),
+                h(b.from_head_m)
+            )
+        } else {
+            format!("from {} {qu} (h1 = {} {lu})", q(b.from_m3s), h(b.from_head_m))
+        };
+        let to = if b.to_top {
+            format!("upward, to the top of the range checked ({} {qu})", q(b.to_m3s))
+        } else {
+            format!("to {} {qu} (h1 = {} {lu})", q(b.to_m3s), h(b.to_head_m))
+        };
+        format!("drowned {from} {to}")
+    }
+
     /// The verdict in one sentence, in output units.
     pub fn verdict_line(&self) -> String {
         let (lu, qu) = self.units.symbols();
-        let top = self
-            .check
-            .rows
-            .iter()
-            .filter_map(|(_, r)| r.as_ref().ok())
-            .map(|r| r.discharge_m3s)
-            .fold(f64::NAN, f64::max);
-        match self.check.verdict {
+        let top = self.top_m3s();
+        match &self.check.verdict {
             Verdict::Modular => format!(
-                "verdict: modular across the range checked (up to {} {qu})",
-                sig(self.units.discharge_from_si(top), 4)
+                "verdict: modular across the range checked (up to {} {qu}); drowning looked for at {} heads and between them by root finding to 0.1 mm",
+                sig(self.units.discharge_from_si(top), 4),
+                crate::tailwater::SCAN_POINTS
             ),
-            Verdict::Drowns {
-                from_m3s,
-                from_head_m,
-                crest_raise_m,
-            } => {
+            Verdict::Drowns { bands, crest_raise_m } => {
                 let fix = match crest_raise_m {
                     Some(r) => format!(
                         "raising the crest by {} {lu} (approach bed and tailwater channel unchanged) would keep it modular up to {} {qu}",
-                        sig(self.units.length_from_si(r), 3),
+                        sig(self.units.length_from_si(*r), 3),
                         sig(self.units.discharge_from_si(top), 4)
                     ),
                     None => "no crest raise up to 2 m keeps it modular: lower the tailwater or redesign the exit".into(),
                 };
+                let words: Vec<String> = bands.iter().map(|b| self.band_words(b)).collect();
                 format!(
-                    "verdict: DROWNED from {} {qu} (h1 = {} {lu}) upward; above it the rating reads high. {fix}",
-                    sig(self.units.discharge_from_si(from_m3s), 4),
-                    sig(self.units.length_from_si(from_head_m), 4)
+                    "verdict: DROWNED: {}; while drowned the rating reads high. {fix}",
+                    words.join("; and ")
                 )
             }
         }
     }
 
-    /// CSV, full precision; `modular` as true/false.
+    /// The note of a row: a band edge, a tailwater above the upstream energy, or why the row has
+    /// no value.
+    fn note(&self, kind: RowKind, row: Option<&TailwaterRow>) -> String {
+        let mut notes: Vec<&str> = Vec::new();
+        match kind {
+            RowKind::Table => {}
+            RowKind::DrownsFrom => {
+                notes.push("drowning starts just above this head (root between table rows, to 0.1 mm)")
+            }
+            RowKind::ModularFrom => notes.push("modular again from this head (root between table rows, to 0.1 mm)"),
+        }
+        if row.is_some_and(|r| r.submergence > 1.0) {
+            notes.push("tailwater energy above the upstream energy: the structure no longer controls the flow");
+        }
+        notes.join("; ")
+    }
+
+    /// CSV, full precision; `modular` as true/false. The band edges are rows of their own, noted.
     pub fn to_csv(&self) -> Result<Vec<u8>, csv::Error> {
         let mut w = csv::Writer::from_writer(Vec::new());
         w.write_record(self.headers())?;
-        for (h, r) in &self.check.rows {
+        for (h, kind, r) in &self.check.rows {
             let rec: Vec<String> = match r {
                 Ok(row) => {
                     let v = self.values(row);
                     let mut rec: Vec<String> = v.iter().map(|x| format!("{x}")).collect();
                     rec[5] = row.modular.to_string();
-                    rec.push(String::new());
+                    rec.push(self.note(*kind, Some(row)));
                     rec
                 }
                 Err(e) => {
@@ -119,14 +160,35 @@ impl TailwaterReport<'_> {
         Ok(w.into_inner().map_err(|e| e.into_error())?)
     }
 
-    /// JSON document with rows, verdict and cautions.
+    /// The drowned bands as JSON objects (design.md: `from_discharge_m3s`, `to_discharge_m3s`,
+    /// `from_head_m`, `to_head_m`; `_cfs`/`_ft` in US units).
+    pub fn bands_json(&self) -> Vec<Value> {
+        let (l, q) = (self.units.length_suffix(), self.units.discharge_suffix());
+        self.check
+            .bands()
+            .iter()
+            .map(|b| {
+                json!({
+                    format!("from_discharge_{q}"): self.units.discharge_from_si(b.from_m3s),
+                    format!("to_discharge_{q}"): self.units.discharge_from_si(b.to_m3s),
+                    format!("from_head_{l}"): self.units.length_from_si(b.from_head_m),
+                    format!("to_head_{l}"): self.units.length_from_si(b.to_head_m),
+                    "from_bottom_of_range": b.from_bottom,
+                    "to_top_of_range": b.to_top,
+                    "text": self.band_words(b),
+                })
+            })
+            .collect()
+    }
+
+    /// JSON document with rows, drowned bands, verdict and cautions.
     pub fn to_json(&self) -> Result<Vec<u8>, serde_json::Error> {
         let headers = self.headers();
         let rows: Vec<Value> = self
             .check
             .rows
             .iter()
-            .map(|(h, r)| {
+            .map(|(h, kind, r)| {
                 let mut m = Map::new();
                 match r {
                     Ok(row) => {
@@ -134,7 +196,7 @@ impl TailwaterReport<'_> {
                             m.insert(k.clone(), json!(v));
                         }
                         m.insert("modular".into(), json!(row.modular));
-                        m.insert("note".into(), json!(""));
+                        m.insert("note".into(), json!(self.note(*kind, Some(row))));
                     }
                     Err(e) => {
                         m.insert(headers[1].clone(), json!(self.units.length_from_si(*h)));
@@ -144,16 +206,10 @@ impl TailwaterReport<'_> {
                 Value::Object(m)
             })
             .collect();
-        let verdict = match self.check.verdict {
+        let verdict = match &self.check.verdict {
             Verdict::Modular => json!({"modular": true}),
-            Verdict::Drowns {
-                from_m3s,
-                from_head_m,
-                crest_raise_m,
-            } => json!({
+            Verdict::Drowns { crest_raise_m, .. } => json!({
                 "modular": false,
-                format!("drowned_from_{}", self.units.discharge_suffix()): self.units.discharge_from_si(from_m3s),
-                format!("drowned_from_head_{}", self.units.length_suffix()): self.units.length_from_si(from_head_m),
                 format!("crest_raise_{}", self.units.length_suffix()): crest_raise_m.map(|r| self.units.length_from_si(r)),
             }),
         };
@@ -162,6 +218,7 @@ impl TailwaterReport<'_> {
             "station_file": self.source,
             "units": match self.units { Units::Si => "si", Units::Us => "us" },
             "modular_limit_method": self.method,
+            "drowned_bands": self.bands_json(),
             "rows": rows,
             "verdict": verdict,
             "verdict_text": self.verdict_line(),
@@ -176,7 +233,7 @@ impl TailwaterReport<'_> {
         let u = self.units;
         let (lu, qu) = u.symbols();
         let mut s = format!(
-            "flumerate tailwater check: {}\nstation file: {}\nmodular limit: {}\nlevels in {lu} above the crest (negative: below it), discharge in {qu}; submergence = H2/H1 (energy heads)\n\n",
+            "flumerate tailwater check: {}\nstation file: {}\nmodular limit: {}\nlevels in {lu} above the crest (negative: below it), discharge in {qu}; submergence = H2/H1 (energy heads); ML = modular limit\n\n",
             self.name, self.source, self.method
         );
         s.push_str(&format!(
@@ -189,17 +246,22 @@ impl TailwaterReport<'_> {
             format!("max tail {lu}"),
             "modular"
         ));
-        for (h, r) in &self.check.rows {
+        for (h, kind, r) in &self.check.rows {
             match r {
                 Ok(row) => s.push_str(&format!(
-                    "{:>12} {:>8.4} {:>10.4} {:>7.3} {:>7.3} {:>12.4} {:>8}\n",
+                    "{:>12} {:>8.4} {:>10.4} {:>7} {:>7.3} {:>12.4} {:>8}  {}\n",
                     sig(u.discharge_from_si(row.discharge_m3s), 4),
                     u.length_from_si(row.head_m),
                     u.length_from_si(row.tailwater_m),
-                    row.submergence,
+                    if row.submergence > 1.0 {
+                        "> 1".to_string()
+                    } else {
+                        format!("{:.3}", row.submergence)
+                    },
                     row.modular_limit,
                     u.length_from_si(row.max_tailwater_m),
-                    if row.modular { "yes" } else { "DROWNED" }
+                    if row.modular { "yes" } else { "DROWNED" },
+                    self.note(*kind, Some(row))
                 )),
                 Err(e) => s.push_str(&format!(
                     "{:>12} {:>8.4} {:>10} {:>7} {:>7} {:>12} {:>8}  {e}\n",
@@ -215,7 +277,9 @@ impl TailwaterReport<'_> {
         }
         s.push('\n');
         s.push_str(&wrap(&self.verdict_line(), 100));
-        s.push_str("\n\nIn the field: read the tailwater gauge (zero at crest level) and compare it with the max tail column for the discharge read upstream; above it the structure is drowned and the rating reads high.\n\n");
+        s.push_str(&format!(
+            "\n\nIn the field: read the tailwater gauge (zero at crest level) and compare it with the \"max tail {lu}\" column for the discharge read upstream; above it the structure is drowned and the rating reads high.\n\n"
+        ));
         s.push_str(&wrap(CAUTIONS, 100));
         s.push('\n');
         s.into_bytes()
@@ -225,34 +289,19 @@ impl TailwaterReport<'_> {
     pub fn chart(&self) -> XyChart {
         let u = self.units;
         let (lu, qu) = u.symbols();
-        let ok: Vec<&TailwaterRow> = self.check.rows.iter().filter_map(|(_, r)| r.as_ref().ok()).collect();
+        let ok: Vec<&TailwaterRow> = self.check.rows.iter().filter_map(|(_, _, r)| r.as_ref().ok()).collect();
         let pts = |f: &dyn Fn(&TailwaterRow) -> f64| -> Vec<(f64, f64)> {
             ok.iter()
                 .map(|r| (u.discharge_from_si(r.discharge_m3s), u.length_from_si(f(r))))
                 .collect()
         };
-        // drowned stretches, each end placed where S − ML changes sign (linear interpolation)
-        let excess = |r: &TailwaterRow| r.submergence - r.modular_limit;
-        let q_of = |r: &TailwaterRow| u.discharge_from_si(r.discharge_m3s);
-        let crossing = |a: &TailwaterRow, b: &TailwaterRow| {
-            let (ea, eb) = (excess(a), excess(b));
-            q_of(a) + (q_of(b) - q_of(a)) * (ea / (ea - eb))
-        };
-        let mut shaded = Vec::new();
-        let mut start: Option<f64> = None;
-        for (i, r) in ok.iter().enumerate() {
-            match (r.modular, start) {
-                (false, None) => start = Some(if i > 0 { crossing(ok[i - 1], r) } else { q_of(r) }),
-                (true, Some(a)) => {
-                    shaded.push((a, crossing(ok[i - 1], r)));
-                    start = None;
-                }
-                _ => {}
-            }
-        }
-        if let (Some(a), Some(last)) = (start, ok.last()) {
-            shaded.push((a, q_of(last)));
-        }
+        // drowned stretches, each end where the excess changes sign (root finding)
+        let shaded: Vec<(f64, f64)> = self
+            .check
+            .bands()
+            .iter()
+            .map(|b| (u.discharge_from_si(b.from_m3s), u.discharge_from_si(b.to_m3s)))
+            .collect();
         XyChart {
             title: format!("{}: tailwater check", self.name),
             x_label: format!("discharge Q ({qu})"),

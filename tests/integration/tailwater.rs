@@ -97,9 +97,14 @@ fn drowned_from(station: &std::path::Path) -> (Option<i32>, serde_json::Value) {
 fn the_canal_flume_drowns_and_a_higher_crest_moves_the_limit_up() {
     let (code, doc) = drowned_from(std::path::Path::new(CANAL));
     assert_eq!(code, Some(1), "drowned range gives exit 1");
-    let from = doc["verdict"]["drowned_from_m3s"].as_f64().expect("drowned from");
+    let from = doc["drowned_bands"][0]["from_discharge_m3s"]
+        .as_f64()
+        .expect("drowned from");
     let raise = doc["verdict"]["crest_raise_m"].as_f64().expect("a crest raise exists");
-    assert!(doc["verdict_text"].as_str().expect("text").contains("DROWNED from"));
+    assert!(doc["verdict_text"]
+        .as_str()
+        .expect("text")
+        .contains("DROWNED: drowned from"));
     assert!(raise > 0.0 && raise < 0.5, "{raise}");
 
     // raise the crest by 20 mm: the approach bed and tailwater bed stay where they are, so both
@@ -112,7 +117,7 @@ fn the_canal_flume_drowns_and_a_higher_crest_moves_the_limit_up() {
     let raised = station_file(dir.path(), "raised.toml", &text);
     let (code, doc) = drowned_from(&raised);
     assert_eq!(code, Some(1));
-    let from_raised = doc["verdict"]["drowned_from_m3s"]
+    let from_raised = doc["drowned_bands"][0]["from_discharge_m3s"]
         .as_f64()
         .expect("still drowns at the top");
     assert!(
@@ -221,8 +226,8 @@ fn a_modular_limit_in_the_file_overrides_the_energy_balance() {
     }
     let (_, base) = drowned_from(std::path::Path::new(CANAL));
     let (a, b) = (
-        doc["verdict"]["drowned_from_m3s"].as_f64().expect("drowns"),
-        base["verdict"]["drowned_from_m3s"].as_f64().expect("drowns"),
+        doc["drowned_bands"][0]["from_discharge_m3s"].as_f64().expect("drowns"),
+        base["drowned_bands"][0]["from_discharge_m3s"].as_f64().expect("drowns"),
     );
     assert!(a < b, "a lower modular limit drowns earlier: {a} vs {b}");
 }
@@ -252,4 +257,124 @@ fn submerged_estimate_is_offered_only_where_villemonte_applies() {
         submerged_discharge_estimate_m3s(&flume, 1.0, 0.8, 0.7, 1.5).is_none(),
         "not for flumes"
     );
+}
+
+fn tailwater_json(station: &std::path::Path, step: &str) -> serde_json::Value {
+    let out = flumerate()
+        .arg("tailwater")
+        .arg(station)
+        .args(["--format", "json", "--step", step])
+        .output()
+        .expect("run");
+    serde_json::from_slice(&out.stdout).expect("json")
+}
+
+/// The drowning verdict comes from the crossing, found by root finding, never from a table row:
+/// the demo canal flume gives the same band at three steps (to 0.1 mm of head), and its onset
+/// lies between table rows, below the first drowned row of the coarsest table.
+#[test]
+fn the_drowning_onset_does_not_move_with_the_step() {
+    let mut onsets = Vec::new();
+    for step in ["0.005", "0.01", "0.03"] {
+        let doc = tailwater_json(std::path::Path::new(CANAL), step);
+        let bands = doc["drowned_bands"].as_array().expect("bands");
+        assert_eq!(bands.len(), 1, "step {step}");
+        assert_eq!(bands[0]["to_top_of_range"], true, "upward");
+        onsets.push((
+            bands[0]["from_head_m"].as_f64().expect("head"),
+            bands[0]["from_discharge_m3s"].as_f64().expect("q"),
+        ));
+        // the onset row is in the table, noted, and the row just below it is modular
+        let rows = doc["rows"].as_array().expect("rows");
+        let k = rows
+            .iter()
+            .position(|r| {
+                r["note"]
+                    .as_str()
+                    .unwrap_or("")
+                    .starts_with("drowning starts just above")
+            })
+            .expect("onset row");
+        assert_eq!(rows[k]["modular"], true, "the onset is given on the safe side");
+        assert_eq!(rows[k + 1]["modular"], false);
+        assert!(doc["verdict_text"].as_str().expect("text").contains("upward"));
+    }
+    for (h, q) in &onsets[1..] {
+        assert!((h - onsets[0].0).abs() <= 1e-4, "onset {h} vs {}", onsets[0].0);
+        assert!((q - onsets[0].1).abs() / onsets[0].1 < 1e-3);
+    }
+    // at a 0.03 m step the first drowned table row lies well above the onset
+    let doc = tailwater_json(std::path::Path::new(CANAL), "0.03");
+    let first_row = doc["rows"]
+        .as_array()
+        .expect("rows")
+        .iter()
+        .find(|r| r["modular"] == false && r["note"] == "")
+        .and_then(|r| r["head_m"].as_f64())
+        .expect("a drowned row");
+    assert!(first_row > onsets[0].0 + 0.005, "{first_row} vs onset {}", onsets[0].0);
+}
+
+/// A tabulated tailwater that backs up only over middle discharges (a culvert that chokes and
+/// then overtops a bypass, invented): one band in the middle, reported from–to, not "upward",
+/// the same at three steps; and the crest-raise advice clears it.
+#[test]
+fn a_tabulated_tailwater_drowns_only_a_middle_band() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let text = std::fs::read_to_string(CANAL)
+        .expect("read")
+        .replace(
+            "[tailwater]\nbed_below_crest = 0.20\nshape = \"trapezoid\"\nwidth = 0.60\nside_slope = 1.5\nmanning_n = 0.028\nbed_slope = 0.0004",
+            "[tailwater]\ntable = [[0.0, -0.20], [0.08, 0.05], [0.12, 0.25], [0.30, 0.30], [0.60, 0.50]]",
+        );
+    assert!(
+        text.contains("table = [[0.0"),
+        "the demo's tailwater table was replaced"
+    );
+    let st = station_file(dir.path(), "middle.toml", &text);
+    let mut first: Option<(f64, f64)> = None;
+    for step in ["0.005", "0.01", "0.025"] {
+        let doc = tailwater_json(&st, step);
+        let bands = doc["drowned_bands"].as_array().expect("bands");
+        assert_eq!(bands.len(), 1, "one band at step {step}: {bands:?}");
+        let b = &bands[0];
+        assert_eq!(b["to_top_of_range"], false);
+        assert_eq!(b["from_bottom_of_range"], false);
+        let (from, to) = (
+            b["from_head_m"].as_f64().expect("from"),
+            b["to_head_m"].as_f64().expect("to"),
+        );
+        assert!(from < to);
+        let text = doc["verdict_text"].as_str().expect("text");
+        assert!(
+            text.contains("drowned from") && text.contains(" to ") && !text.contains("upward"),
+            "{text}"
+        );
+        match first {
+            None => first = Some((from, to)),
+            Some((f0, t0)) => {
+                assert!((from - f0).abs() <= 1e-4 && (to - t0).abs() <= 1e-4, "step {step}");
+            }
+        }
+        assert!(doc["verdict"]["crest_raise_m"].as_f64().expect("raise") > 0.0);
+    }
+}
+
+/// A tailwater energy above the upstream energy is said in words, not shown as a bare ratio.
+#[test]
+fn a_tailwater_above_the_upstream_energy_is_said_in_words() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let text = std::fs::read_to_string(CANAL).expect("read").replace(
+        "[tailwater]\nbed_below_crest = 0.20\nshape = \"trapezoid\"\nwidth = 0.60\nside_slope = 1.5\nmanning_n = 0.028\nbed_slope = 0.0004",
+        "[tailwater]\ntable = [[0.0, 0.50], [1.0, 0.90]]",
+    );
+    let st = station_file(dir.path(), "backed-up.toml", &text);
+    let out = flumerate().arg("tailwater").arg(&st).output().expect("run");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("> 1"), "{text}");
+    assert!(text.contains("the structure no longer controls the flow"), "{text}");
+    assert!(!text.lines().any(|l| l
+        .split_whitespace()
+        .nth(3)
+        .is_some_and(|v| v.parse::<f64>().is_ok_and(|x| x > 1.0))));
 }
