@@ -41,11 +41,8 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
 
     let mut s = String::new();
     let _ = writeln!(s, "station file OK: {} ({})", station.source, station.name);
-    let table = flumerate::rating::RatingTable {
-        rows: Vec::new(),
-        equation: None,
-    };
-    let summary = RatingReport::new(&station.name, &station.source, &model, &table, units);
+    let table = flumerate::rating::RatingTable { rows: Vec::new() };
+    let summary = RatingReport::new(&station.name, &station.source, &model, &table, None, units);
     for line in summary.structure_lines() {
         let _ = writeln!(s, "{line}");
     }

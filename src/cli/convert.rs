@@ -8,7 +8,7 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Context};
 use clap::Args;
-use flumerate::rating::fit_power_law;
+use flumerate::rating::RatingEquation;
 use flumerate::report::plot::{hydrograph, HydroBuckets};
 use flumerate::report::{sig, wrap, CAUTIONS};
 use flumerate::series::convert::{
@@ -406,13 +406,10 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let tailwater = station.tailwater.clone().map(|t| Tailwater::new(t, g));
     let top = 1.5 * station.range.max_head_m;
     let table = DenseRating::new(&gum, &exit, tailwater.as_ref(), top, station.range.min_head_m)?;
-    let fit_points: Vec<(f64, f64)> = (0..200)
-        .map(|k| {
-            let h = station.range.min_head_m + (station.range.max_head_m - station.range.min_head_m) * k as f64 / 199.0;
-            (h, table.eval(h).map_or(f64::NAN, |r| r.discharge_m3s))
-        })
-        .collect();
-    let exponent = fit_power_law(&fit_points).map_or(1.5, |e| e.u);
+    // the station's rating equation, as every other output prints it; its exponent serves the
+    // drowned-flow estimate (1.5, the rectangular control's, when none can be fitted)
+    let rating_equation = RatingEquation::for_range(&model, station.range.min_head_m, station.range.max_head_m);
+    let exponent = rating_equation.as_ref().map_or(1.5, |e| e.fit.u);
     timer.mark("rating table");
 
     // 4. corrections
@@ -683,6 +680,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "dense_table_top_m": table.top_m(),
             "rows_above_table_computed_exactly": counts.above_table,
             "rows_without_discharge": bounded_lines(&counts.unrated_lines),
+            "rating_equation": rating_equation.as_ref().map(|e| e.printed(flumerate::units::Units::Si).sentence(flumerate::units::Units::Si)),
             "rating_equation_exponent": exponent,
         },
         "rows": {

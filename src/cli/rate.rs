@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use flumerate::rating::{RatingModel, RatingTable};
+use flumerate::rating::{RatingEquation, RatingModel, RatingTable};
 use flumerate::report::rating::{RatingReport, UncertaintyColumns};
 use flumerate::station::Station;
 use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
@@ -133,6 +133,7 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
             .then(|| points.iter().map(|p| p.map_or([f64::NAN; 4], |p| p.shares)).collect()),
         monte_carlo: monte,
     };
+    let equation = RatingEquation::for_range(&model, station.range.min_head_m, station.range.max_head_m);
     let exit = Exit::from(&station.exit);
     let tailwater = station
         .tailwater
@@ -152,7 +153,7 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
     let report = RatingReport {
         uncertainty: Some(&columns),
         modular: Some(&modular),
-        ..RatingReport::new(&station.name, &station.source, &model, &table, units)
+        ..RatingReport::new(&station.name, &station.source, &model, &table, equation.as_ref(), units)
     };
     let bytes = match a.format {
         TableFormat::Text => report.to_text(),

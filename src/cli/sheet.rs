@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Context};
 use clap::{Args, ValueEnum};
-use flumerate::rating::{RatingTable, StructureKind};
+use flumerate::rating::{RatingEquation, RatingTable, StructureKind};
 use flumerate::report::plot::{xy_chart_sized, ImageFormat};
 use flumerate::report::rating::RatingReport;
 use flumerate::report::sheet::{Paper, Sheet, SheetCell, SheetRow};
@@ -147,7 +147,15 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         })
         .collect();
 
-    let report = RatingReport::new(&station.name, &station.source, &model, &table, units);
+    let rating_equation = RatingEquation::for_range(&model, station.range.min_head_m, station.range.max_head_m);
+    let report = RatingReport::new(
+        &station.name,
+        &station.source,
+        &model,
+        &table,
+        rating_equation.as_ref(),
+        units,
+    );
     // the curve is the rating report's chart, without the title and caption the sheet prints itself
     let mut chart = report.chart();
     chart.title.clear();
@@ -168,20 +176,9 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
                 .map(|p| (sig(units.length_from_si(h), 3), p.u95_pct()))
         })
         .collect();
-    let (lu, qu) = units.symbols();
-    let equation = match table.equation {
-        Some(eq) => {
-            let (k, h0) = report.equation_in_units();
-            format!(
-                "Q = {} (h1 {} {})^{} (Q in {qu}, h1 in {lu}); within {} % of the table",
-                sig(k, 5),
-                if h0 < 0.0 { "−" } else { "+" },
-                sig(h0.abs(), 3),
-                sig(eq.u, 4),
-                sig(eq.max_relative_deviation * 100.0, 2)
-            )
-        }
-        None => "not fitted (fewer than 3 valid rows)".into(),
+    let equation = match &rating_equation {
+        Some(eq) => eq.printed(units).sentence(units),
+        None => "not fitted (fewer than 3 valid rows in the station's range)".into(),
     };
     let zero = match station
         .logger

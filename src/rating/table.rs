@@ -1,7 +1,6 @@
 //! A rating table: the model evaluated over a sequence of heads, each row checked against the
-//! limits of application, plus the fitted rating equation.
+//! limits of application.
 
-use super::fit::{fit_power_law, PowerLaw};
 use super::limits::broken_limits;
 use super::model::{RatingModel, RatingPoint};
 
@@ -102,12 +101,11 @@ pub struct RatingRow {
 pub struct RatingTable {
     /// Rows in ascending head order.
     pub rows: Vec<RatingRow>,
-    /// Q = K·(h + h0)^u fitted over the valid rows (needs three or more).
-    pub equation: Option<PowerLaw>,
 }
 
 impl RatingTable {
-    /// Evaluates `model` at every head (m), checks limits and fits the rating equation.
+    /// Evaluates `model` at every head (m) and checks the limits of application. (The rating
+    /// equation is the station's, [`super::RatingEquation`], not a fit to this table.)
     pub fn compute(model: &RatingModel, heads_m: &[f64]) -> Self {
         let rows: Vec<RatingRow> = heads_m
             .iter()
@@ -129,15 +127,7 @@ impl RatingTable {
                 },
             })
             .collect();
-        let fit_points: Vec<(f64, f64)> = rows
-            .iter()
-            .filter(|r| r.valid)
-            .filter_map(|r| r.point.map(|p| (p.head_m, p.discharge_m3s)))
-            .collect();
-        Self {
-            equation: fit_power_law(&fit_points),
-            rows,
-        }
+        Self { rows }
     }
 
     /// Number of rows outside the limits of application.

@@ -6,7 +6,7 @@
 use serde_json::{json, Map, Value};
 
 use super::{sig, wrap, CAUTIONS};
-use crate::rating::{LossMethod, RatingModel, RatingRow, RatingTable, StructureKind};
+use crate::rating::{LossMethod, RatingEquation, RatingModel, RatingRow, RatingTable, StructureKind};
 use crate::uncertainty::{Inputs, McRow, INPUT_NAMES};
 use crate::units::Units;
 
@@ -40,6 +40,8 @@ pub struct RatingReport<'a> {
     pub uncertainty: Option<&'a UncertaintyColumns>,
     /// Per row: modular limit and largest modular tailwater level above the crest (m), if computed.
     pub modular: Option<&'a [(f64, f64)]>,
+    /// The station's rating equation ([`crate::rating::RatingEquation`]), if it could be fitted.
+    pub equation: Option<&'a RatingEquation>,
 }
 
 /// One output cell.
@@ -51,7 +53,14 @@ enum Cell {
 
 impl<'a> RatingReport<'a> {
     /// A report with no uncertainty or tailwater columns.
-    pub fn new(name: &'a str, source: &'a str, model: &'a RatingModel, table: &'a RatingTable, units: Units) -> Self {
+    pub fn new(
+        name: &'a str,
+        source: &'a str,
+        model: &'a RatingModel,
+        table: &'a RatingTable,
+        equation: Option<&'a RatingEquation>,
+        units: Units,
+    ) -> Self {
         Self {
             name,
             source,
@@ -60,6 +69,7 @@ impl<'a> RatingReport<'a> {
             units,
             uncertainty: None,
             modular: None,
+            equation,
         }
     }
 
@@ -271,30 +281,22 @@ impl<'a> RatingReport<'a> {
         Ok(w.into_inner().map_err(|e| e.into_error())?)
     }
 
-    /// The rating equation as JSON (in output units), or null.
+    /// The rating equation as JSON (in output units, coefficients as printed), or null.
     fn equation_json(&self) -> Value {
-        let Some(eq) = self.table.equation else {
+        let Some(eq) = self.equation.map(|e| e.printed(self.units)) else {
             return Value::Null;
         };
-        let (k, h0) = self.equation_in_units();
         json!({
             "form": "Q = K * (h + h0)^u",
-            "k": k,
-            format!("h0_{}", self.units.length_suffix()): h0,
+            "k": eq.k,
+            format!("h0_{}", self.units.length_suffix()): eq.h0,
             "u": eq.u,
             "max_relative_deviation": eq.max_relative_deviation,
-            "rows_fitted": eq.points,
+            "rows_fitted": eq.rows,
+            "rows_from": "the valid rows of 101 heads spread over the station's range",
+            "few_rows_warning": eq.rests_on_few_rows(),
+            "text": eq.sentence(self.units),
         })
-    }
-
-    /// K and h0 of the rating equation converted to the output units.
-    /// K and h0 of the rating equation in the output units (the table must have an equation).
-    pub fn equation_in_units(&self) -> (f64, f64) {
-        let eq = self.table.equation.expect("caller checked");
-        // Q_u = Kq·K·(h_u·Lm + h0)^u with Lm = metres per unit: K_u = Kq·K·Lm^u
-        let lm = self.units.length_to_si(1.0);
-        let k = self.units.discharge_from_si(eq.k) * lm.powf(eq.u);
-        (k, self.units.length_from_si(eq.h0_m))
     }
 
     /// The uncertainty inputs and methods as JSON, or null.
@@ -494,20 +496,13 @@ impl<'a> RatingReport<'a> {
             }
         }
         s.push('\n');
-        match self.table.equation {
+        match self.equation {
             Some(eq) => {
-                let (k, h0) = self.equation_in_units();
-                s.push_str(&format!(
-                    "rating equation over the {} valid rows: Q = {} * (h1 {} {})^{}  (Q in {qu}, h1 in {lu}); largest deviation from the table {} %\n",
-                    eq.points,
-                    sig(k, 5),
-                    if h0 < 0.0 { "-" } else { "+" },
-                    sig(h0.abs(), 3),
-                    sig(eq.u, 5),
-                    sig(eq.max_relative_deviation * 100.0, 2)
-                ));
+                s.push_str("rating equation: ");
+                s.push_str(&eq.printed(u).sentence(u));
+                s.push('\n');
             }
-            None => s.push_str("rating equation: not fitted (fewer than 3 valid rows)\n"),
+            None => s.push_str("rating equation: not fitted (fewer than 3 valid rows in the station's range)\n"),
         }
         let invalid = self.table.invalid_rows();
         if invalid > 0 {
