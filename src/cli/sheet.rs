@@ -225,6 +225,10 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         uncertainty,
         svg,
         figures: 4,
+        limits: flumerate::rating::limits::LIMITS
+            .iter()
+            .map(|l| (l.id.to_string(), format!("{}: {} ({})", l.id, l.rule, l.source)))
+            .collect(),
     };
     if a.output.extension().and_then(|e| e.to_str()) != Some("html") {
         bail!("-o {}: the sheet is an .html file", a.output.display());

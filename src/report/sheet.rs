@@ -5,7 +5,10 @@
 //! sheet was made; the rating curve and the facts a reader needs beside it; then the grid — one
 //! row per coarse head step, one column per fine step, the discharge in each cell in bold tabular
 //! figures, and beside each row the highest tailwater reading at which the structure still
-//! measures. Rows outside the method's limits are hatched and say why.
+//! measures. Rows outside the method's limits are hatched and carry the numbers of the limits
+//! they break, explained in a key under the grid (so no note can widen the page). Nothing is
+//! told by colour alone: hatching and struck-through values say "outside the limits" on a
+//! monochrome printer too, and the text names columns by their headings.
 
 use super::CAUTIONS;
 use crate::units::Units;
@@ -78,6 +81,8 @@ pub struct Sheet {
     pub svg: String,
     /// Significant figures of the discharge in the grid.
     pub figures: usize,
+    /// Limits of application that rows may name: (identifier, rule and source in words).
+    pub limits: Vec<(String, String)>,
 }
 
 fn esc(s: &str) -> String {
@@ -123,7 +128,9 @@ table.grid td.none { color: #999; font-weight: normal; }
 table.grid td.tw { background: #eef3ff; }
 table.grid tr.outside td, table.grid tr.outside th { background: repeating-linear-gradient(45deg, #fff, #fff 1.2mm, #d6d6d6 1.2mm, #d6d6d6 2.4mm); }
 table.grid td.bad { font-style: italic; font-weight: normal; text-decoration: line-through; }
-table.grid td.why { text-align: left; font-size: 6.5pt; font-weight: normal; }
+table.grid td.why { text-align: left; font-size: 7pt; font-weight: normal; white-space: normal; }
+table.grid caption { caption-side: top; text-align: left; font-size: 7.5pt; font-weight: bold; padding-bottom: 0.5mm; }
+p.key { font-size: 6.8pt; margin: 0.8mm 0 0 0; }
 .unc { border-collapse: collapse; margin: 0.5mm 0; }
 .unc td, .unc th { border: 0.2mm solid #777; padding: 0 1mm; font-size: 7pt; }
 footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padding-top: 0.8mm; }
@@ -154,10 +161,7 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         ));
 
         h.push_str("<section class=\"top\">\n<div class=\"facts\">\n");
-        h.push_str(&format!(
-            "<p><b>Rating equation</b> (fit to the valid rows): {}</p>\n",
-            esc(&self.equation)
-        ));
+        h.push_str(&format!("<p><b>Rating equation</b>: {}</p>\n", esc(&self.equation)));
         h.push_str("<table class=\"unc\"><tr><th>h1</th>");
         for (head, _) in &self.uncertainty {
             h.push_str(&format!("<td>{} {lu}</td>", esc(head)));
@@ -168,23 +172,38 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         }
         h.push_str("</tr></table>\n");
         h.push_str("<p>U95: expanded uncertainty of one reading (k = 2): coefficient, width, gauge zero and reading error.</p>\n");
+        h.push_str(&format!(
+            "<p class=\"field\">Tailwater check: read the tailwater gauge (zero at crest level). If it reads higher than the “max tail {lu}” column for the present head, the structure is drowned and this table reads high.</p>\n",
+        ));
         h.push_str(
-            "<p class=\"field\">Tailwater check: read the tailwater gauge (zero at crest level). If it reads higher than the blue column for the present head, the structure is drowned and this table reads high.</p>\n",
-        );
-        h.push_str(
-            "<p>Hatched rows break a limit of application (named at the right); their values are computed but not reliable. Blank cells lie outside the station's rated range.</p>\n",
+            "<p>Hatched rows with struck-through values break a limit of application (its number in the “limits” column, explained under the table); their values are computed but not reliable. A dot marks a head outside the station's rated range.</p>\n",
         );
         h.push_str("</div>\n<div class=\"curve\">\n");
         h.push_str(&self.svg);
         h.push_str("\n</div>\n</section>\n");
 
+        // the limits rows break, numbered in order of first appearance
+        let mut keys: Vec<&str> = Vec::new();
+        for row in &self.rows {
+            for id in &row.broken {
+                if !keys.contains(&id.as_str()) {
+                    keys.push(id);
+                }
+            }
+        }
+        let key_of = |id: &str| keys.iter().position(|k| *k == id).map_or(0, |p| p + 1);
+
         // the grid
-        h.push_str("<table class=\"grid\">\n<thead><tr>");
+        h.push_str(&format!(
+            "<table class=\"grid\">\n<caption>Discharge Q in {qu} at head h1 = row + column</caption>\n<thead><tr>"
+        ));
         h.push_str(&format!("<th>h1 {}</th>", esc(&self.row_unit)));
         for c in &self.columns {
             h.push_str(&format!("<th>{}</th>", esc(c)));
         }
-        h.push_str(&format!("<th>tail ≤ {lu}</th><th>limits</th></tr></thead>\n<tbody>\n"));
+        h.push_str(&format!(
+            "<th>max tail {lu}</th><th>limits</th></tr></thead>\n<tbody>\n"
+        ));
         for row in &self.rows {
             let outside = !row.broken.is_empty();
             h.push_str(&format!(
@@ -211,12 +230,30 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
                 .max_tailwater_m
                 .filter(|v| v.is_finite())
                 .map_or("–".to_string(), |v| format!("{:.3}", self.units.length_from_si(v)));
+            let nums: Vec<String> = row.broken.iter().map(|id| key_of(id).to_string()).collect();
             h.push_str(&format!(
                 "<td class=\"tw\">{tw}</td><td class=\"why\">{}</td></tr>\n",
-                esc(&row.broken.join(" "))
+                nums.join(" ")
             ));
         }
         h.push_str("</tbody>\n</table>\n");
+        if !keys.is_empty() {
+            h.push_str("<p class=\"key\"><b>Limits:</b> ");
+            let parts: Vec<String> = keys
+                .iter()
+                .enumerate()
+                .map(|(k, id)| {
+                    let text = self
+                        .limits
+                        .iter()
+                        .find(|(i, _)| i == id)
+                        .map_or(id.to_string(), |(_, t)| t.clone());
+                    format!("<b>{}</b> {}", k + 1, esc(&text))
+                })
+                .collect();
+            h.push_str(&parts.join("; "));
+            h.push_str("</p>\n");
+        }
         h.push_str(&format!(
             "<footer><b>{}</b></footer>\n</div>\n</body>\n</html>\n",
             esc(CAUTIONS)
