@@ -32,7 +32,7 @@
 //! let station = Station::from_toml_str(text, "example.toml")?;
 //! let model = RatingModel::new(station.structure)?;
 //! let q = model.discharge_m3s(0.2)?;
-//! // ISO 4359 rectangular throat, δ* = 0.003 L (references.md §2.2): 0.0754 m³/s within 0.15 %
+//! // ISO 4359 rectangular throat, δ* = 0.003 L (docs/references.md C3): 0.0754 m³/s within 0.15 %
 //! assert!((q / 0.0754155493 - 1.0).abs() < 1.5e-3);
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```

@@ -2,7 +2,7 @@
 //!
 //! A critical-depth control is modular while the energy available between the control and the
 //! tailwater covers the losses there (Bos & Reinink 1981, "Required head loss over long-throated
-//! flumes", J. Irrig. Drain. Div. ASCE 107(IR1); Clemmens et al. 2001 ch. 6; references.md §4.4):
+//! flumes", J. Irrig. Drain. Div. ASCE 107(IR1); Clemmens et al. 2001 ch. 6; docs/references.md S5, S6):
 //!
 //! ```text
 //! H1 − H2 ≥ ΔH_f + ξ·(v_j − v_2)²/(2g)
@@ -10,7 +10,7 @@
 //!
 //! with H1 and H2 the upstream and tailwater energy heads above the crest, ΔH_f the friction loss
 //! along the throat downstream of the control, v_j the mean velocity leaving the throat (taken as
-//! the velocity at the control, as in references.md §4.4), v_2 the tailwater velocity and ξ the
+//! the velocity at the control, as in Bos & Reinink 1981 (from memory)), v_2 the tailwater velocity and ξ the
 //! expansion-loss coefficient of the exit. The largest H2 that satisfies it, divided by H1, is the
 //! modular limit ML. The tailwater level comes from a channel in uniform flow (Manning) or from a
 //! table; nothing is extrapolated.
@@ -28,8 +28,8 @@ pub const WATER_KINEMATIC_VISCOSITY_M2_S: f64 = 1.0e-6;
 /// from memory).
 pub const THROAT_BEYOND_CONTROL: f64 = 1.0 / 3.0;
 
-/// Submergence above which drowned-flow corrections are impractical (references.md §5.3, source
-/// seen: about 0.90).
+/// Submergence above which drowned-flow corrections are impractical (USBR Water Measurement Manual, 3rd ed. 2001,
+/// ch. 8 on Parshall flumes: about 0.90).
 pub const MAX_CORRECTABLE_SUBMERGENCE: f64 = 0.90;
 
 /// What went wrong in the tailwater check.
@@ -62,7 +62,7 @@ pub enum TailwaterError {
 }
 
 /// Expansion-loss coefficient ξ of an exit diverging at 1:N (N = 0: abrupt), interpolated linearly
-/// in N between recalled values of Bos & Reinink 1981 (from memory; references.md §4.4 gives
+/// in N between recalled values of Bos & Reinink 1981 (from memory; range recalled as
 /// "about 1.0–1.2 abrupt, 0.6–0.7 at 1:4, 0.4–0.6 at 1:6 to 1:10"). The upper value of each
 /// range is used, so the modular limit errs low (on the safe side).
 pub fn expansion_loss_coefficient(expansion: f64) -> f64 {
@@ -82,7 +82,7 @@ pub fn expansion_loss_coefficient(expansion: f64) -> f64 {
 /// Friction loss (m) along the throat downstream of the control:
 /// ΔH_f = C_F·(L_r/R)·v²/(2g) with L_r = L/3 and C_F = 0.074·Re^(−1/5), Re = v·L_r/ν, the mean
 /// skin-friction coefficient of a smooth turbulent flat plate (Prandtl's one-seventh-power law,
-/// Schlichting, *Boundary-Layer Theory*; from memory), in the flat-plate form of references.md §4.2.
+/// Schlichting, *Boundary-Layer Theory*; from memory), in the flat-plate form (docs/references.md S10).
 pub fn throat_friction_loss_m(control: &Section, length_m: f64, point: &RatingPoint, g: f64) -> f64 {
     let y = point.critical_depth_m;
     let area = control.area_m2(y);
@@ -291,7 +291,7 @@ pub fn max_tailwater_energy_m(
 
 /// Villemonte's (1947) submerged-weir relation, Q_s/Q_free = [1 − S^n]^0.385 with S = H2/H1 and
 /// n the free-flow exponent (Villemonte, J. R. 1947, "Submerged-weir discharge studies",
-/// *Engineering News-Record* 139; references.md §6.4).
+/// *Engineering News-Record* 139; docs/references.md S7).
 pub fn villemonte_ratio(submergence: f64, exponent: f64) -> f64 {
     (1.0 - submergence.clamp(0.0, 1.0).powf(exponent)).powf(0.385)
 }

@@ -106,7 +106,7 @@ mod tests {
 
     #[test]
     fn cubic_foot_is_exact() {
-        // references.md conventions: 1 ft³/s = 0.028316846592 m³/s exactly
+        // docs/references.md conventions: 1 ft³/s = 0.028316846592 m³/s exactly
         assert_relative_eq!(M3_PER_FT3, 0.028316846592, max_relative = 1e-15);
         assert_relative_eq!(Units::Us.discharge_from_si(M3_PER_FT3), 1.0, max_relative = 1e-15);
     }

@@ -5,6 +5,7 @@ mod common;
 mod integration {
     pub mod cli;
     pub mod convert;
+    pub mod field_trial;
     pub mod fuzz;
     pub mod hostile;
     pub mod malformed;

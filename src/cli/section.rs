@@ -22,6 +22,8 @@ pub enum ShapeArg {
     Trapezoid,
     Triangle,
     Circle,
+    /// semicircular bottom with vertical walls (ISO 4359 U-throat)
+    UShape,
     Points,
 }
 
@@ -116,6 +118,9 @@ fn build_section(a: &SectionArgs, units: Units) -> anyhow::Result<Section> {
         },
         ShapeArg::Circle => Section::Circle {
             diameter_m: len(need(a.diameter, "--diameter", "circle")?),
+        },
+        ShapeArg::UShape => Section::UShape {
+            diameter_m: len(need(a.diameter, "--diameter", "u-shape")?),
         },
         ShapeArg::Points => {
             let text = a

@@ -146,6 +146,12 @@ pub fn critical_at_energy(section: &Section, energy_m: f64, alpha: f64, g: f64) 
             let y = newton_bracketed(s, top * 1e-12, top, 0.75 * top).unwrap_or(top);
             (y, 1)
         }
+        Section::UShape { .. } => {
+            // s(y) = 2T(E − y) − αA: positive near the invert, −αA at E; A/T rises with depth
+            // in a U (circle segment, then vertical walls), so E_c rises and the root is unique
+            let s = |y: f64| 2.0 * section.top_width_m(y) * (e - y) - alpha * section.area_m2(y);
+            (brent(s, e * 1e-12, e, 0.0).unwrap_or(e), 1)
+        }
         Section::Points(p) => points_critical_at_energy(p, section, e, alpha, g),
     };
     let area = section.area_m2(depth);
@@ -262,6 +268,12 @@ pub fn critical_depths_m(section: &Section, discharge_m3s: f64, alpha: f64, g: f
         Section::Circle { diameter_m } => {
             // near full, T → 0 and φ → +∞: the root lies below D for any discharge
             let hi = diameter_m * (1.0 - 1e-12);
+            single(brent(phi, diameter_m * 1e-9, hi, 0.0)?)
+        }
+        Section::UShape { diameter_m } => {
+            // above half full the U is a rectangle D wide; its critical depth, raised by the
+            // half diameter, bounds the root from above
+            let hi = (q2 / (g * diameter_m * diameter_m)).cbrt() + diameter_m;
             single(brent(phi, diameter_m * 1e-9, hi, 0.0)?)
         }
         Section::Points(p) => {
@@ -425,7 +437,7 @@ mod tests {
 
     #[test]
     fn rectangle_reference_values() {
-        // references.md §0 (COMPUTED, independent numpy/scipy): q = 0.3 m²/s
+        // docs/references.md C1 (independent computation): q = 0.3 m²/s
         let s = Section::Rectangle { width_m: 1.0 };
         let yc = critical_depths_m(&s, 0.3, 1.0, G).expect("ok")[0];
         assert_relative_eq!(yc, 0.2093665410, max_relative = 1e-9);
@@ -436,7 +448,7 @@ mod tests {
 
     #[test]
     fn trapezoid_reference_values() {
-        // references.md §0 (COMPUTED): b = 2 m, z = 1.5, Q = 5 m³/s
+        // docs/references.md C1 (independent computation): b = 2 m, z = 1.5, Q = 5 m³/s
         let s = Section::Trapezoid {
             bottom_width_m: 2.0,
             side_slope: 1.5,
@@ -455,7 +467,7 @@ mod tests {
 
     #[test]
     fn circle_reference_values() {
-        // references.md §0 (COMPUTED): D = 1 m, Q = 0.5 m³/s
+        // docs/references.md C1 (independent computation): D = 1 m, Q = 0.5 m³/s
         let s = Section::Circle { diameter_m: 1.0 };
         let yc = critical_depths_m(&s, 0.5, 1.0, G).expect("ok")[0];
         assert_relative_eq!(yc, 0.3988767311, max_relative = 1e-9);
@@ -464,7 +476,7 @@ mod tests {
 
     #[test]
     fn critical_at_energy_matches_reference_ideal_throats() {
-        // references.md §2.2 "ideal non-rectangular throats" (COMPUTED)
+        // docs/references.md C2 "ideal non-rectangular throats" (independent computation)
         let cases = [
             (
                 Section::Trapezoid {

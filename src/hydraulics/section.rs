@@ -270,9 +270,15 @@ pub enum Section {
         /// Horizontal per 1 vertical.
         side_slope: f64,
     },
-    /// A circular pipe or U-throat, at any fill up to full.
+    /// A circular pipe, at any fill up to full (below half full it is also a U-throat).
     Circle {
         /// Internal diameter (m).
+        diameter_m: f64,
+    },
+    /// A U-shaped throat (ISO 4359): a semicircular bottom of diameter D continued upward by
+    /// vertical walls D apart.
+    UShape {
+        /// Diameter of the bottom and distance between the walls (m).
         diameter_m: f64,
     },
     /// A surveyed section.
@@ -310,7 +316,7 @@ impl Section {
                 Ok(())
             }
             Section::Triangle { side_slope } => positive("side slope", side_slope),
-            Section::Circle { diameter_m } => positive("diameter", diameter_m),
+            Section::Circle { diameter_m } | Section::UShape { diameter_m } => positive("diameter", diameter_m),
             Section::Points(_) => Ok(()),
         }
     }
@@ -335,6 +341,15 @@ impl Section {
                 } else {
                     let theta = circle_angle(y, d);
                     d * d * (theta - theta.sin()) / 8.0
+                }
+            }
+            Section::UShape { diameter_m } => {
+                let (d, r) = (*diameter_m, 0.5 * diameter_m);
+                if y <= r {
+                    let theta = circle_angle(y, d);
+                    d * d * (theta - theta.sin()) / 8.0
+                } else {
+                    PI * r * r / 2.0 + d * (y - r)
                 }
             }
             Section::Points(p) => p.area_m2(y),
@@ -366,6 +381,13 @@ impl Section {
                     diameter_m * (circle_angle(y, *diameter_m) / 2.0).sin()
                 }
             }
+            Section::UShape { diameter_m } => {
+                if y >= 0.5 * diameter_m {
+                    *diameter_m
+                } else {
+                    diameter_m * (circle_angle(y, *diameter_m) / 2.0).sin()
+                }
+            }
             Section::Points(p) => p.top_width_m(y),
         }
     }
@@ -388,6 +410,14 @@ impl Section {
                     PI * diameter_m
                 } else {
                     diameter_m * circle_angle(y, *diameter_m) / 2.0
+                }
+            }
+            Section::UShape { diameter_m } => {
+                let r = 0.5 * diameter_m;
+                if y <= r {
+                    diameter_m * circle_angle(y, *diameter_m) / 2.0
+                } else {
+                    PI * r + 2.0 * (y - r)
                 }
             }
             Section::Points(p) => p.wetted_perimeter_m(y),
@@ -427,7 +457,7 @@ impl Section {
             Section::Rectangle { width_m } => *width_m,
             Section::Trapezoid { bottom_width_m, .. } => *bottom_width_m,
             Section::Triangle { .. } => 0.0,
-            Section::Circle { diameter_m } => *diameter_m,
+            Section::Circle { diameter_m } | Section::UShape { diameter_m } => *diameter_m,
             Section::Points(p) => p.top_width_m(p.surveyed_top_m()),
         }
     }
@@ -472,6 +502,12 @@ impl Section {
                 },
                 d,
             ),
+            Section::UShape { diameter_m } => (
+                Section::UShape {
+                    diameter_m: diameter_m - 2.0 * d,
+                },
+                d,
+            ),
             Section::Points(p) => return p.offset_inward(d),
         };
         section.validate().map_err(|_| too_large)?;
@@ -499,6 +535,9 @@ impl Section {
             Section::Circle { diameter_m } => Section::Circle {
                 diameter_m: diameter_m * factor,
             },
+            Section::UShape { diameter_m } => Section::UShape {
+                diameter_m: diameter_m * factor,
+            },
             Section::Points(p) => {
                 let pts: Vec<(f64, f64)> = p.points().iter().map(|&(x, z)| (x * factor, z)).collect();
                 Section::Points(PointsSection::new(&pts).expect("scaling offsets keeps a valid section valid"))
@@ -520,6 +559,7 @@ impl Section {
             ),
             Section::Triangle { side_slope } => format!("triangle (V), side slope {side_slope}:1 (H:V)"),
             Section::Circle { diameter_m } => format!("circle, diameter {}", l(*diameter_m)),
+            Section::UShape { diameter_m } => format!("U-shape, diameter {}", l(*diameter_m)),
             Section::Points(p) => format!(
                 "surveyed section, {} points, surveyed to {} above the lowest point",
                 p.points().len(),
@@ -553,7 +593,7 @@ mod tests {
 
     #[test]
     fn circle_matches_reference_critical_section() {
-        // references.md §0 (COMPUTED): D = 1 m, y_c = 0.3988767311 m → A_c = 0.2922695 m², T_c = 0.9793346 m
+        // docs/references.md C1 (independent computation): D = 1 m, y_c = 0.3988767311 m → A_c = 0.2922695 m², T_c = 0.9793346 m
         let c = Section::Circle { diameter_m: 1.0 };
         assert_relative_eq!(c.area_m2(0.3988767311), 0.2922695, max_relative = 1e-6);
         assert_relative_eq!(c.top_width_m(0.3988767311), 0.9793346, max_relative = 1e-6);

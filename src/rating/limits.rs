@@ -3,7 +3,7 @@
 //! A rating row outside any limit is kept and marked `valid = false`, with the broken limits
 //! named in its note. The numeric bounds are recalled from the standards named beside them
 //! (marked "from memory" where the value was not read in the standard itself); see
-//! references.md §1.2, §2.3 and §4.3 for what was and was not seen.
+//! docs/references.md S3, S4 and S5 for what was and was not read in the sources.
 
 use super::model::{RatingPoint, Structure, StructureKind};
 use crate::hydraulics::Section;
@@ -48,56 +48,56 @@ pub const LIMITS: &[Limit] = &[
     Limit {
         id: "h1>=0.05m",
         rule: "gauged head h1 at least 0.05 m (surface tension and reading error grow below it)",
-        source: "ISO 4359 (from memory; references.md §2.3)",
+        source: "ISO 4359 (from memory)",
         kind: Some(StructureKind::Flume),
         holds: |c| Some(c.point.head_m >= 0.05 - 1e-12),
     },
     Limit {
         id: "h1>=0.06m",
         rule: "gauged head h1 at least 0.06 m",
-        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory)",
         kind: Some(StructureKind::Weir),
         holds: |c| Some(c.point.head_m >= 0.06 - 1e-12),
     },
     Limit {
         id: "H1/L>=0.07",
         rule: "H1/L at least 0.07 (below it friction along the throat dominates and the theory loses accuracy)",
-        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory; references.md §4.3)",
+        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory)",
         kind: None,
         holds: |c| Some(c.point.energy_head_m / c.structure.control_length_m >= 0.07 - 1e-12),
     },
     Limit {
         id: "H1/L<=0.7",
         rule: "H1/L at most 0.7 (above it streamlines at the control are curved, not parallel)",
-        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory; references.md §4.3)",
+        source: "Clemmens, Wahl, Bos & Replogle 2001, ILRI Publ. 58 (bounds from memory)",
         kind: Some(StructureKind::Flume),
         holds: |c| Some(c.point.energy_head_m / c.structure.control_length_m <= 0.7 + 1e-12),
     },
     Limit {
         id: "h1/L<=0.57",
         rule: "h1/L at most 0.57",
-        source: "ISO 4374 (from memory; references.md §1.2)",
+        source: "ISO 4374 (from memory)",
         kind: Some(StructureKind::Weir),
         holds: |c| Some(c.point.head_m / c.structure.control_length_m <= 0.57 + 1e-12),
     },
     Limit {
         id: "Fr1<=0.5",
         rule: "approach Froude number at most 0.5 (a stable, readable water surface at the gauge)",
-        source: "Clemmens et al. 2001 §5.2 and ISO 4359 (from memory; references.md §4.3)",
+        source: "Clemmens et al. 2001 §5.2 and ISO 4359 (from memory)",
         kind: None,
         holds: |c| Some(c.point.froude_approach <= 0.5 + 1e-12),
     },
     Limit {
         id: "b>=0.10m",
         rule: "control width (bed width, or diameter) at least 0.10 m",
-        source: "ISO 4359 (from memory; references.md §2.3)",
+        source: "ISO 4359 (from memory)",
         kind: Some(StructureKind::Flume),
         holds: |c| width_m(c.structure).map(|b| b >= 0.10 - 1e-12),
     },
     Limit {
         id: "h1/b<=3",
         rule: "h1/b at most 3 for a rectangular throat",
-        source: "ISO 4359 (from memory; references.md §2.3)",
+        source: "ISO 4359 (from memory)",
         kind: Some(StructureKind::Flume),
         holds: |c| {
             rectangular(c.structure)
@@ -107,21 +107,21 @@ pub const LIMITS: &[Limit] = &[
     Limit {
         id: "b>=0.30m",
         rule: "crest width at least 0.30 m",
-        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory)",
         kind: Some(StructureKind::Weir),
         holds: |c| width_m(c.structure).map(|b| b >= 0.30 - 1e-12),
     },
     Limit {
         id: "p1>=0.15m",
         rule: "crest at least 0.15 m above the approach bed",
-        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory)",
         kind: Some(StructureKind::Weir),
         holds: |c| Some(c.structure.sill_height_m >= 0.15 - 1e-12),
     },
     Limit {
         id: "h1/p1<=1.5",
         rule: "h1/p1 at most 1.5",
-        source: "ISO 4374 / Bos 1989 §4.1 (from memory; references.md §1.2)",
+        source: "ISO 4374 / Bos 1989 §4.1 (from memory)",
         kind: Some(StructureKind::Weir),
         holds: |c| {
             let p = c.structure.sill_height_m;

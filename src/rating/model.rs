@@ -8,11 +8,23 @@
 //!   Weirs*, ILRI Publ. 58, ch. 6);
 //! - critical flow at the control: E_c = y_c + A_c/(2B_c) = H1 and Q = √(g·A_c³/B_c)
 //!   (Henderson 1966, *Open Channel Flow*, §2.3), for any control shape;
-//! - losses either as a boundary-layer displacement thickness δ* = 0.003·L over the wetted
-//!   boundary of the control (ISO 4359 for a well-finished throat; the same δ* in ISO 4374), or as
-//!   a fixed discharge coefficient Q = Cd·Q_ideal(H1);
+//! - losses in one of three ways:
+//!   - the boundary-layer method after ISO 4359 (the default): the displacement thickness
+//!     δ* = 0.003·L of a well-finished throat moves every wetted boundary of the control into
+//!     the water, and critical flow is found in that effective section. It is the general form of
+//!     ISO 4359's correction, valid for any shape; where ISO 4359 has its own formula the two
+//!     differ slightly (the general method reads a few hundredths of a per cent higher for a
+//!     rectangular throat and up to about 1 % higher for a trapezoidal one: README, "Method
+//!     and sources");
+//!   - ISO 4359's own formulas (from memory, docs/references.md S3) for the throats it covers:
+//!     Q = Cd·Q_ideal(H1) with Cd = (1 − 2δ*/b)(1 − δ*/h1)^1.5, b the bed width of a rectangular
+//!     or trapezoidal throat or the diameter of a U-throat, h1 the gauged head; Q_ideal(H1) is
+//!     the loss-free critical-flow discharge of the throat at H1, which is the standard's
+//!     (2/3)^1.5·√g·Cv·Cs·b·h1^1.5 with the shape coefficient Cs (Cu for a U-throat) and Cv
+//!     exact;
+//!   - a fixed discharge coefficient Q = Cd·Q_ideal(H1);
 //! - the approach-velocity effect solved exactly, taking the smaller (physical) root of
-//!   H1 − h1 − α·Q(H1)²/(2g·A1²) = 0, where the approach flow is subcritical (references.md §1.1).
+//!   H1 − h1 − α·Q(H1)²/(2g·A1²) = 0, where the approach flow is subcritical (docs/references.md C2).
 //!
 //! The reported coefficients follow the usual definitions: Cv = Q_ideal(H1)/Q_ideal(h1) (for a
 //! rectangle (H1/h1)^{3/2}, Bos 1989 §1.10) and Cd = Q/Q_ideal(H1).
@@ -29,7 +41,15 @@ pub enum LossMethod {
     },
     /// A fixed discharge coefficient multiplying the ideal critical-flow discharge at H1.
     FixedCd(f64),
+    /// ISO 4359's own formula: Cd = (1 − 2δ*/b)(1 − δ*/h1)^1.5 on the ideal discharge at H1
+    /// (rectangular, trapezoidal and U-shaped throats only).
+    Iso4359 {
+        /// δ* in metres (0.003·L).
+        displacement_thickness_m: f64,
+    },
 }
+
+impl LossMethod {}
 
 /// What kind of structure the control belongs to; it selects the limits of application.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -117,6 +137,12 @@ pub enum RatingError {
     /// The boundary-layer offset of the control failed.
     #[error("boundary-layer method: {0}")]
     Geometry(#[from] GeometryError),
+    /// ISO 4359's own formulas do not cover this throat.
+    #[error("ISO 4359's own formulas cover rectangular, trapezoidal and U-shaped throats, not a {shape} section: use coefficient = \"boundary-layer\" (the general method after ISO 4359)")]
+    IsoShape {
+        /// The shape.
+        shape: &'static str,
+    },
 }
 
 /// One computed point of a rating.
@@ -169,6 +195,8 @@ enum Control {
     Effective { section: Section, rise_m: f64 },
     /// The geometric section with a fixed discharge coefficient.
     Fixed { cd: f64 },
+    /// The geometric section with ISO 4359's Cd of the gauged head.
+    Iso { displacement_m: f64, width_m: f64 },
 }
 
 /// Flow through the control at one energy head.
@@ -192,6 +220,23 @@ impl RatingModel {
                 Control::Effective { section, rise_m }
             }
             LossMethod::FixedCd(cd) => Control::Fixed { cd },
+            LossMethod::Iso4359 {
+                displacement_thickness_m,
+            } => {
+                let shape = match structure.control {
+                    Section::Rectangle { .. } | Section::Trapezoid { .. } | Section::UShape { .. } => None,
+                    Section::Triangle { .. } => Some("triangular"),
+                    Section::Circle { .. } => Some("circular"),
+                    Section::Points(_) => Some("surveyed"),
+                };
+                if let Some(shape) = shape {
+                    return Err(RatingError::IsoShape { shape });
+                }
+                Control::Iso {
+                    displacement_m: displacement_thickness_m,
+                    width_m: structure.control.characteristic_width_m(),
+                }
+            }
         };
         Ok(Self {
             structure,
@@ -222,11 +267,20 @@ impl RatingModel {
         critical_at_energy(&self.structure.control, energy_head_m, 1.0, self.structure.gravity_m_s2).discharge_m3s
     }
 
-    fn control_flow(&self, energy_head_m: f64) -> ControlFlow {
+    /// Flow through the control at energy head `energy_head_m`, the gauged head being `head_m`.
+    fn control_flow(&self, energy_head_m: f64, head_m: f64) -> ControlFlow {
         let g = self.structure.gravity_m_s2;
         let (section, rise_m, cd) = match &self.control {
             Control::Effective { section, rise_m } => (section, *rise_m, self.cd_factor),
             Control::Fixed { cd } => (&self.structure.control, 0.0, *cd * self.cd_factor),
+            Control::Iso {
+                displacement_m,
+                width_m,
+            } => {
+                // ISO 4359: Cd = (1 − 2δ*/b)(1 − δ*/h)^1.5, on the gauged head (from memory)
+                let cd = (1.0 - 2.0 * displacement_m / width_m) * (1.0 - displacement_m / head_m).max(0.0).powf(1.5);
+                (&self.structure.control, 0.0, cd * self.cd_factor)
+            }
         };
         let c = critical_at_energy(section, energy_head_m - rise_m, 1.0, g);
         ControlFlow {
@@ -267,7 +321,7 @@ impl RatingModel {
 
         let (mut lo, mut hi) = (head_m, f64::INFINITY);
         let mut h = head_m;
-        let mut flow = self.control_flow(h);
+        let mut flow = self.control_flow(h, head_m);
         let mut converged = false;
         for _ in 0..200 {
             let r = h - head_m - c * flow.discharge_m3s * flow.discharge_m3s;
@@ -293,7 +347,7 @@ impl RatingModel {
             };
             let done = (next - h).abs() <= 4.0 * f64::EPSILON * h;
             h = next;
-            flow = self.control_flow(h);
+            flow = self.control_flow(h, head_m);
             if done || (hi.is_finite() && hi - lo <= 2e-16 * hi) {
                 converged = true;
                 break;
@@ -331,7 +385,7 @@ mod tests {
 
     #[test]
     fn ideal_rectangle_with_exact_approach_velocity() {
-        // references.md §1.1 (COMPUTED, independent energy-balance root), Cd = 1
+        // docs/references.md C2 (independent energy-balance root), Cd = 1
         let cases = [
             (1.0, 1.0, 0.3, 0.3, 1.0634870860, 0.2978773982),
             (0.5, 1.0, 0.1, 0.2, 1.0261098904, 0.0782226132),
@@ -349,7 +403,7 @@ mod tests {
 
     #[test]
     fn iso_4359_rectangular_examples_by_boundary_layer() {
-        // references.md §2.2 (COMPUTED from ISO 4359's rectangular-throat formulas, δ* = 0.003 L)
+        // docs/references.md C3 (ISO 4359's rectangular-throat formulas, δ* = 0.003 L, computed independently)
         let cases = [
             (0.5, 1.0, 0.20, 1.0, 0.1, 0.0754155493),
             (0.5, 1.0, 0.05, 1.0, 0.1, 0.0086236095),

@@ -227,11 +227,18 @@ impl<'a> RatingReport<'a> {
             LossMethod::BoundaryLayer {
                 displacement_thickness_m,
             } => format!(
-                "critical flow with boundary-layer losses: δ* = {} {lu} = {}·L over every wetted boundary of the control (ISO 4359)",
+                "critical flow, boundary-layer method after ISO 4359: δ* = {} {lu} = {}·L moved into every wetted boundary of the control (the general form of the standard's correction, not the standard's formula: coefficient = \"iso-4359\" gives that)",
                 sig(self.units.length_from_si(displacement_thickness_m), 3),
                 sig(displacement_thickness_m / s.control_length_m, 3)
             ),
             LossMethod::FixedCd(cd) => format!("critical flow with a fixed discharge coefficient Cd = {cd}"),
+            LossMethod::Iso4359 {
+                displacement_thickness_m,
+            } => format!(
+                "critical flow, ISO 4359's own formula: Cd = (1 − 2δ*/b)(1 − δ*/h1)^1.5 with δ* = {} {lu} = {}·L, Cv and the shape coefficient exact (formula from memory: docs/references.md S3)",
+                sig(self.units.length_from_si(displacement_thickness_m), 3),
+                sig(displacement_thickness_m / s.control_length_m, 3)
+            ),
         }
     }
 

@@ -16,7 +16,7 @@ use crate::hydraulics::{PointsSection, Section, STANDARD_GRAVITY_M_S2};
 use crate::rating::{LossMethod, Structure, StructureKind};
 
 /// ISO 4359's boundary-layer displacement thickness for a well-finished throat, δ*/L = 0.003
-/// (references.md §2.1, MEDIUM-HIGH).
+/// (ISO 4359, docs/references.md S3; the exact clause from memory).
 pub const ISO_4359_DISPLACEMENT_RATIO: f64 = 0.003;
 
 /// A length unit a station file may use.
@@ -531,6 +531,23 @@ impl Ctx<'_> {
                     diameter_m: need(k.diameter, "diameter", "give the inside diameter, e.g. diameter = 0.45")?,
                 }
             }
+            "u-shape" => {
+                self.forbid(
+                    k.width,
+                    &key("width"),
+                    name,
+                    "give only diameter (the walls stand one diameter apart)",
+                )?;
+                self.forbid(k.side_slope, &key("side_slope"), name, "give only diameter")?;
+                self.forbid(k.points, &key("points"), name, "use shape = \"points\"")?;
+                Section::UShape {
+                    diameter_m: need(
+                        k.diameter,
+                        "diameter",
+                        "give the diameter of the semicircular bottom, e.g. diameter = 0.45",
+                    )?,
+                }
+            }
             "points" => {
                 self.forbid(k.width, &key("width"), name, "describe the section by its points only")?;
                 self.forbid(
@@ -559,7 +576,7 @@ impl Ctx<'_> {
                     shape.span(),
                     &key("shape"),
                     format!("unknown shape \"{other}\""),
-                    "use one of \"rectangle\", \"trapezoid\", \"triangle\", \"circle\", \"points\"",
+                    "use one of \"rectangle\", \"trapezoid\", \"triangle\", \"circle\", \"u-shape\", \"points\"",
                 ))
             }
         };
@@ -757,12 +774,44 @@ impl Ctx<'_> {
         let loss = match c.coefficient.as_ref().map(|s| (s.get_ref(), s.span())) {
             None => None,
             Some((RawCoefficient::Text(t), _)) if t == "boundary-layer" => None,
+            Some((RawCoefficient::Text(t), span)) if t == "iso-4359" => {
+                if let Some(d) = &c.displacement_ratio {
+                    return Err(self.err(
+                        d.span(),
+                        "control.displacement_ratio",
+                        "ISO 4359's formula fixes δ* = 0.003·L; another displacement_ratio would no longer be the standard's",
+                        "remove displacement_ratio, or use coefficient = \"boundary-layer\" with it",
+                    ));
+                }
+                if c.structure.as_ref().is_some_and(|s| s.get_ref() == "weir") {
+                    return Err(self.err(
+                        span,
+                        "control.coefficient",
+                        "ISO 4359 covers flumes, not broad-crested weirs",
+                        "use coefficient = \"boundary-layer\" for a round-nosed weir (ISO 4374 uses the same δ* = 0.003·L, from memory)",
+                    ));
+                }
+                if !matches!(
+                    control_section,
+                    Section::Rectangle { .. } | Section::Trapezoid { .. } | Section::UShape { .. }
+                ) {
+                    return Err(self.err(
+                        span,
+                        "control.coefficient",
+                        "ISO 4359's own formulas cover rectangular, trapezoidal and U-shaped throats only",
+                        "use coefficient = \"boundary-layer\" (the general method after ISO 4359) for this shape, or shape = \"u-shape\" for a U-throat",
+                    ));
+                }
+                Some(LossMethod::Iso4359 {
+                    displacement_thickness_m: ISO_4359_DISPLACEMENT_RATIO * length_m,
+                })
+            }
             Some((RawCoefficient::Text(t), span)) => {
                 return Err(self.err(
                     span,
                     "control.coefficient",
                     format!("unknown coefficient method \"{t}\""),
-                    "use coefficient = \"boundary-layer\" or a fixed discharge coefficient such as coefficient = 0.98",
+                    "use coefficient = \"boundary-layer\" (default), \"iso-4359\" or a fixed discharge coefficient such as coefficient = 0.98",
                 ))
             }
             Some((RawCoefficient::Number(cd), span)) => {

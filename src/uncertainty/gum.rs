@@ -3,7 +3,7 @@
 //! u_c(Q)² = Σ (∂Q/∂x_i · u(x_i))² for independent inputs (JCGM 100:2008 eq. 10), with the
 //! sensitivity coefficients ∂Q/∂x_i taken by central differences of the actual rating (the energy
 //! balance with its approach-velocity coefficient and the boundary layer), not from the exponent
-//! of a power law. The reason is references.md §8.2: where Cv is solved from the approach
+//! of a power law. The reason is docs/references.md C4: where Cv is solved from the approach
 //! velocity, Q responds to Cd and to the width with a sensitivity above 1, and to the head with
 //! one above 1.5. The expanded uncertainty uses k = 2 (about 95 %, JCGM 100 §6.3).
 

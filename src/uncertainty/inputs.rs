@@ -70,11 +70,11 @@ impl Inputs {
     /// The inputs from a station's `[uncertainty]`, with documented defaults for missing values:
     ///
     /// - coefficient: ±2 % for a rectangular-throated flume and ±3 % for trapezoidal and U
-    ///   throats (ISO 4359, from memory; references.md §2.3); ±3 % for a broad-crested weir
-    ///   (Bos 1989 §4.1, from memory; references.md §1.2); ±3 % for a fixed Cd, the upper end of
-    ///   the ±2–3 % typical of ISO flumes and broad-crested weirs (references.md §8, from memory);
-    /// - dimension: ±0.2 %, the upper end of the typical ±0.1–0.2 % (references.md §8, from memory);
-    /// - gauge zero: ±2 mm, the middle of the typical ±1–3 mm (references.md §8, from memory);
+    ///   throats (ISO 4359, from memory); ±3 % for a broad-crested weir
+    ///   (Bos 1989 §4.1, from memory); ±3 % for a fixed Cd, the upper end of
+    ///   the ±2–3 % typical of ISO flumes and broad-crested weirs (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory);
+    /// - dimension: ±0.2 %, the upper end of the typical ±0.1–0.2 % (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory);
+    /// - gauge zero: ±2 mm, the middle of the typical ±1–3 mm (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory);
     /// - one head reading: ±2 mm (common practice, no source).
     ///
     /// All defaults are expanded values at k = 2, normal.
@@ -86,7 +86,7 @@ impl Inputs {
         let (cd_default, cd_source) = match (structure.loss, structure.kind) {
             (LossMethod::FixedCd(_), _) => (
                 3.0,
-                "default: upper end of ±2–3 % typical of ISO flumes and broad-crested weirs (references.md §8, from memory)",
+                "default: upper end of ±2–3 % typical of ISO flumes and broad-crested weirs (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
             ),
             (_, StructureKind::Weir) => (3.0, "default: Bos 1989 §4.1, about 3 % (from memory)"),
             (_, StructureKind::Flume) if rectangular => (2.0, "default: ISO 4359, ±2 % for rectangular throats (from memory)"),
@@ -100,12 +100,12 @@ impl Inputs {
         let (d, ds) = pick(
             spec.dimension_pct,
             0.2,
-            "default: upper end of the typical ±0.1–0.2 % (references.md §8, from memory)",
+            "default: upper end of the typical ±0.1–0.2 % (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
         );
         let (z, zs) = pick(
             spec.zero_mm,
             2.0,
-            "default: middle of the typical ±1–3 mm (references.md §8, from memory)",
+            "default: middle of the typical ±1–3 mm (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
         );
         let (h, hs) = pick(
             spec.head_mm,

@@ -4,7 +4,7 @@
 //! ([`series`]).
 //!
 //! References: JCGM 100:2008 (GUM); JCGM 101:2008 (Monte Carlo supplement); ISO 5168:2005 for
-//! the hydrometric form of the same rules; references.md §8 for the check values.
+//! the hydrometric form of the same rules; docs/references.md C4 and C5 for the check values.
 
 pub mod gum;
 pub mod inputs;

@@ -4,7 +4,7 @@
 //! for every reading of the period, so their contributions add linearly across readings (fully
 //! correlated, JCGM 100 §5.2.2 with r = 1); the reading error is independent from one reading to
 //! the next, so its contributions add in quadrature. Adding the reading noise linearly, as if it
-//! were systematic, would overstate it by up to √N for N readings (references.md §8.3).
+//! were systematic, would overstate it by up to √N for N readings (docs/references.md C5).
 
 use super::gum::{GumPoint, COVERAGE_FACTOR};
 use super::inputs::Inputs;

@@ -62,7 +62,7 @@ fn rate_us_units_convert_heads_and_discharges() {
     );
     let q_si = si["rows"][0]["discharge_m3s"].as_f64().expect("si");
     let q_us = us["rows"][0]["discharge_cfs"].as_f64().expect("us");
-    // 1 ft³/s = 0.028316846592 m³/s exactly (references.md conventions)
+    // 1 ft³/s = 0.028316846592 m³/s exactly (docs/references.md conventions)
     assert!(rel(q_us * 0.028316846592, q_si) < 1e-12);
     assert!(us["rows"][0]["head_ft"].as_f64().is_some());
     let table = rate_json(std::path::Path::new(DEMO), &["--units", "us"]);
@@ -327,7 +327,7 @@ fn verify_reproduces_the_reference_values() {
         .arg("verify")
         .assert()
         .success()
-        .stdout(predicate::str::contains("references.md §8.2"))
+        .stdout(predicate::str::contains("docs/references.md C4"))
         .stdout(predicate::str::contains(" 0 failed"));
 }
 

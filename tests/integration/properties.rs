@@ -89,14 +89,14 @@ proptest! {
 
     #[test]
     fn rectangle_critical_depth_is_two_thirds_of_energy(b in 0.05f64..10.0, e in 0.001f64..5.0) {
-        // analytic: E_c = 1.5·y_c in a rectangle (references.md §0 identities)
+        // analytic: E_c = 1.5·y_c in a rectangle (docs/references.md C1 identities)
         let c = critical_at_energy(&Section::Rectangle { width_m: b }, e, 1.0, G);
         prop_assert!((c.depth_m - 2.0 / 3.0 * e).abs() <= 1e-12 * e);
     }
 
     #[test]
     fn triangle_critical_depth_is_four_fifths_of_energy(m in 0.05f64..10.0, q in 0.001f64..5.0) {
-        // analytic: E_c = 1.25·y_c in a triangle (references.md §0 identities), via the
+        // analytic: E_c = 1.25·y_c in a triangle (docs/references.md C1 identities), via the
         // critical depth for Q rather than the closed form for E
         let s = Section::Triangle { side_slope: m };
         let yc = critical_depths_m(&s, q, 1.0, G).expect("solved")[0];

@@ -1,6 +1,6 @@
 //! The main computations against published or independently computed values. Each check names
-//! its source: "references.md §N (COMPUTED)" values were computed by an independent numpy/scipy
-//! program from first principles, as that file explains.
+//! its source: "docs/references.md Cn (independent computation)" values were computed by an
+//! independent numpy/scipy program from first principles, as that file explains.
 
 use crate::common::{flumerate, rate_one, rel, station_file, station_text};
 use serde_json::Value;
@@ -36,7 +36,7 @@ struct SectionCase {
 
 fn section_cases() -> Vec<SectionCase> {
     vec![
-        // references.md §0 (COMPUTED): rectangle q = 0.3 m²/s (b = 1 m)
+        // docs/references.md C1 (independent computation): rectangle q = 0.3 m²/s (b = 1 m)
         SectionCase {
             dims: vec![("--width", 1.0)],
             shape: "rectangle",
@@ -49,7 +49,7 @@ fn section_cases() -> Vec<SectionCase> {
                 ("super", 0.0702527733, 1e-6),
             ],
         },
-        // references.md §0 (COMPUTED): trapezoid b = 2 m, z = 1.5, Q = 5 m³/s, E = 1.5 m
+        // docs/references.md C1 (independent computation): trapezoid b = 2 m, z = 1.5, Q = 5 m³/s, E = 1.5 m
         SectionCase {
             dims: vec![("--width", 2.0), ("--side-slope", 1.5)],
             shape: "trapezoid",
@@ -64,7 +64,7 @@ fn section_cases() -> Vec<SectionCase> {
                 ("super", 0.4133741, 1e-6),
             ],
         },
-        // references.md §0 (COMPUTED): circle D = 1 m, Q = 0.5 m³/s
+        // docs/references.md C1 (independent computation): circle D = 1 m, Q = 0.5 m³/s
         SectionCase {
             dims: vec![("--diameter", 1.0)],
             shape: "circle",
@@ -134,7 +134,7 @@ fn section_reproduces_reference_sections_in_si_and_us_units() {
 
 #[test]
 fn section_froude_numbers_at_the_alternate_depths() {
-    // references.md §0 (COMPUTED): rectangle q = 0.3, E = 1.0: Fr = 0.096468 (sub), 5.14477 (super);
+    // docs/references.md C1 (independent computation): rectangle q = 0.3, E = 1.0: Fr = 0.096468 (sub), 5.14477 (super);
     // the table gives 5 and 6 significant figures
     let sub = section_json(&[
         "--shape",
@@ -174,7 +174,7 @@ fn gauged_head(energy_m: f64, q: f64, approach_area: impl Fn(f64) -> f64) -> f64
 #[test]
 fn rate_with_cd_one_reproduces_ideal_ratings_with_approach_velocity() {
     let dir = tempfile::tempdir().expect("tempdir");
-    // references.md §1.1 (COMPUTED, independent energy-balance root): rectangle, exact Cv
+    // docs/references.md C2 (independent energy-balance root): rectangle, exact Cv
     let rect_cases = [
         (1.0, 1.0, 0.3, 0.3, 0.2978773982, 1.0634870860),
         (0.5, 1.0, 0.1, 0.2, 0.0782226132, 1.0261098904),
@@ -193,10 +193,10 @@ fn rate_with_cd_one_reproduces_ideal_ratings_with_approach_velocity() {
         assert!(rel(num(&row, "cv"), cv) < 1e-6, "rect {i}: {row}");
     }
 
-    // Other throats: (H, Q) of the loss-free control from references.md §2.2 / §0 (COMPUTED),
+    // Other throats: (H, Q) of the loss-free control from docs/references.md C2 (independent computation),
     // placed behind a 2 m wide rectangular approach with a 0.5 m sill; h1 from the energy
     // equation above. The triangle value is the closed form (16/25)·√(2g/5)·H^2.5 for a 90° V,
-    // references.md §0 and §7.
+    // docs/references.md C1.
     let approach = "shape = \"rectangle\"\nwidth = 2.0\nsill_height = 0.5";
     let trapezoid = "shape = \"trapezoid\"\nwidth = 0.3\nside_slope = 1.0\nlength = 1.0";
     let trapezoid_points =
@@ -242,7 +242,7 @@ fn rate_with_cd_one_reproduces_ideal_ratings_with_approach_velocity() {
 
 #[test]
 fn rate_boundary_layer_reproduces_iso_4359_rectangular_examples() {
-    // references.md §2.2 (COMPUTED with ISO 4359's rectangular-throat formulas:
+    // docs/references.md C3 (ISO 4359's rectangular-throat formulas, computed independently:
     // Cd = (1 − 2δ*/b)(1 − δ*/h)^1.5, δ* = 0.003 L, Cv from §1.1)
     let dir = tempfile::tempdir().expect("tempdir");
     let cases = [

@@ -10,7 +10,7 @@ const CANAL: &str = "ratings/ridgeway-canal-flume.toml";
 
 #[test]
 fn exit_loss_balance_reproduces_the_reference_table() {
-    // references.md §4.4 (COMPUTED, friction ignored): rectangular throat b = 0.5 m at H1 = 0.25 m,
+    // docs/references.md C6 (independent computation, friction ignored): rectangular throat b = 0.5 m at H1 = 0.25 m,
     // v_j = v_c, tailwater channel 1.0 m wide with its bed 0.1 m below the crest
     let h1 = 0.25;
     let yc = 2.0 * h1 / 3.0;
@@ -44,7 +44,7 @@ fn exit_loss_balance_reproduces_the_reference_table() {
 
 #[test]
 fn villemonte_reproduces_the_reference_values() {
-    // references.md §6.4 (COMPUTED from Villemonte 1947, Qs/Qfree = [1 − S^n]^0.385)
+    // docs/references.md C7 (computed from Villemonte 1947, Qs/Qfree = [1 − S^n]^0.385)
     let table = [
         (0.3, 0.9332243, 0.9807258),
         (0.5, 0.8453860, 0.9278426),
@@ -242,7 +242,7 @@ fn submerged_estimate_is_offered_only_where_villemonte_applies() {
         RatingModel::new(st.structure).expect("model")
     };
     let (weir, flume) = (load("ratings/alder-brook-weir.toml"), load(CANAL));
-    // references.md §6.4: S = 0.8, n = 1.5 gives 0.6163070
+    // docs/references.md C7: S = 0.8, n = 1.5 gives 0.6163070
     let q = submerged_discharge_estimate_m3s(&weir, 1.0, 0.8, 0.7, 1.5).expect("weir, drowned, S <= 0.9");
     assert!((q - 0.6163070).abs() < 1e-6);
     assert!(

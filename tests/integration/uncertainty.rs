@@ -1,4 +1,4 @@
-//! Uncertainty propagation against references.md §8 (COMPUTED by an independent numpy/scipy
+//! Uncertainty propagation against docs/references.md C4 and C5 (computed by an independent numpy/scipy
 //! program from the same model: the rectangular ISO 4359-style flume of §2.2 with its Cd held as
 //! an input, Cv solved from the approach velocity).
 
@@ -8,10 +8,10 @@ use flumerate::station::Station;
 use flumerate::uncertainty::{monte_carlo, period_uncertainty, Emulator, GumModel, Inputs, McOptions, SeriesReading};
 
 /// The §8.2 flume: b = 0.5 m, L = 1.0 m, B = 1.0 m, p = 0.1 m, Cd fixed at the ISO 4359 value
-/// for h = 0.2 m (0.9658535721, references.md §2.2); u(Cd) = 1 % (±2 % at k = 2), u(b) = 0.5 mm
+/// for h = 0.2 m (0.9658535721, docs/references.md C3); u(Cd) = 1 % (±2 % at k = 2), u(b) = 0.5 mm
 /// (±0.2 % at k = 2), gauge zero ±1 mm rectangular, one reading u = 1 mm (±2 mm at k = 2).
 const FLUME_8_2: &str = r#"
-name = "references.md §8.2 flume"
+name = "docs/references.md C4 flume"
 length_unit = "m"
 [control]
 shape = "rectangle"
@@ -44,13 +44,13 @@ fn sensitivities_and_gum_uncertainty_of_the_reference_flume() {
     let (model, inputs) = setup(FLUME_8_2);
     let gum = GumModel::new(&model, inputs).expect("gum");
     let p = gum.point(0.2).expect("point");
-    // references.md §2.2 / §8.2 (COMPUTED): Q0 = 0.0754155493 m³/s
+    // docs/references.md C3/C4 (independent computation): Q0 = 0.0754155493 m³/s
     assert!(
         (p.discharge_m3s / 0.0754155493 - 1.0).abs() < 1e-9,
         "{}",
         p.discharge_m3s
     );
-    // references.md §8.2 (COMPUTED): c_Cd = c_b = 1.04994, c_h = 1.51665 (not 1 and 1.5)
+    // docs/references.md C4 (independent computation): c_Cd = c_b = 1.04994, c_h = 1.51665 (not 1 and 1.5)
     assert!(
         (p.sensitivity_coefficient() - 1.04994).abs() < 1e-4,
         "{}",
@@ -66,7 +66,7 @@ fn sensitivities_and_gum_uncertainty_of_the_reference_flume() {
         "{}",
         p.sensitivity_head(0.2)
     );
-    // references.md §8.2 (COMPUTED): GUM u_c(Q)/Q = 1.3712 %, U95 = 2.742 %
+    // docs/references.md C4 (independent computation): GUM u_c(Q)/Q = 1.3712 %, U95 = 2.742 %
     assert!((p.u_rel * 100.0 - 1.3712).abs() < 1e-4, "{}", p.u_rel * 100.0);
     assert!((p.u95_pct() - 2.742).abs() < 1e-3);
     let shares: f64 = p.shares.iter().sum();
@@ -82,7 +82,7 @@ fn monte_carlo_agrees_with_the_reference_run() {
         threads: 2,
     };
     let row = monte_carlo(&model, &inputs, &[0.2], &opts).expect("mc")[0].expect("finite");
-    // references.md §8.2 (COMPUTED, 400 000 draws, seed 20240601): relative standard deviation
+    // docs/references.md C4 (independent computation, 400 000 draws, seed 20240601): relative standard deviation
     // 1.3675 %, 95 % interval [0.0734036, 0.0774448] m³/s. Our draws differ, so allow the sampling
     // error of a 200 000-draw run.
     let rel_sd = row.sd_m3s / row.mean_m3s * 100.0;
@@ -93,7 +93,7 @@ fn monte_carlo_agrees_with_the_reference_run() {
 
 #[test]
 fn iso_form_is_recovered_when_the_approach_velocity_vanishes() {
-    // references.md §8.2: X_C = 2 %, X_b = 0.2 %, X_h = 1 mm / 0.2 m = 0.5 % gives
+    // docs/references.md C4: X_C = 2 %, X_b = 0.2 %, X_h = 1 mm / 0.2 m = 0.5 % gives
     // X_Q = √(2² + 0.2² + (1.5·0.5)²) = 2.1453 % (ISO 5168 form, sensitivities 1, 1, 1.5). A very
     // large, deep approach makes Cv = 1 so the model reduces to that form.
     let text = FLUME_8_2
@@ -107,7 +107,7 @@ fn iso_form_is_recovered_when_the_approach_velocity_vanishes() {
 
 #[test]
 fn a_day_of_readings_keeps_systematic_and_random_parts_apart() {
-    // references.md §8.3 (COMPUTED): 96 readings at 15 min, h = 0.15 + 0.05·sin(2πi/96), on the
+    // docs/references.md C5 (independent computation): 96 readings at 15 min, h = 0.15 + 0.05·sin(2πi/96), on the
     // §8.2 flume; u(Cd) = 1 %, gauge zero ±1 mm rectangular, reading u = 1 mm; no width term.
     let text = FLUME_8_2.replace("dimension_pct = 0.2", "dimension_pct = 0.0");
     let (model, inputs) = setup(&text);
