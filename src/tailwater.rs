@@ -63,8 +63,9 @@ pub enum TailwaterError {
 
 /// Expansion-loss coefficient ξ of an exit diverging at 1:N (N = 0: abrupt), interpolated linearly
 /// in N between recalled values of Bos & Reinink 1981 (from memory; range recalled as
-/// "about 1.0–1.2 abrupt, 0.6–0.7 at 1:4, 0.4–0.6 at 1:6 to 1:10"). The upper value of each
-/// range is used, so the modular limit errs low (on the safe side).
+/// "about 1.0–1.2 abrupt, 0.6–0.7 at 1:4, 0.4–0.6 at 1:6 to 1:10"). Up to 1:6 the upper value
+/// of each range is used, so the modular limit errs low (on the safe side); at 1:10 and flatter
+/// the middle of the recalled range, 0.5, since the recollection does not place 1:10 within it.
 pub fn expansion_loss_coefficient(expansion: f64) -> f64 {
     const TABLE: [(f64, f64); 4] = [(0.0, 1.2), (4.0, 0.7), (6.0, 0.6), (10.0, 0.5)];
     if expansion <= TABLE[0].0 {

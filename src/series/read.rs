@@ -406,8 +406,17 @@ fn spawn_reader(
     (rx, handle)
 }
 
+/// polars prints a warning of its own when a block does not split into one row per line;
+/// flumerate then stops with an error that names the lines, so the warning only confuses. The
+/// reader silences polars' warnings once, for the process.
+fn silence_polars_warnings() {
+    static ONCE: std::sync::Once = std::sync::Once::new();
+    ONCE.call_once(|| polars_error::set_warning_function(|_, _| {}));
+}
+
 /// Reads the logger file. `progress` is called with the bytes consumed so far.
 pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64)) -> Result<RawSeries, ReadError> {
+    silence_polars_warnings();
     let p = path.display().to_string();
     let io = |source| ReadError::Io {
         path: p.clone(),

@@ -868,6 +868,46 @@ impl Ctx<'_> {
                 }
             },
         };
+        // a broad-crested weir must say its upstream edge: the critical-flow method serves a
+        // rounded nose only (Bos 1989 §4.1; ISO 4374); a square edge separates the flow and
+        // reads about 15 % lower, which needs its own coefficients (ISO 3846)
+        match (kind, &c.upstream_edge) {
+            (StructureKind::Weir, None) => {
+                return Err(self.missing(
+                    cspan.clone(),
+                    "control.upstream_edge",
+                    "add upstream_edge = \"rounded\" (a rounded nose, ISO 4374) or \"square\" (a square upstream corner, ISO 3846)",
+                ))
+            }
+            (StructureKind::Weir, Some(e)) => match e.get_ref().as_str() {
+                "rounded" => {}
+                "square" => {
+                    return Err(self.err(
+                        e.span(),
+                        "control.upstream_edge",
+                        "a square-edged broad-crested weir separates the flow at its upstream corner; the critical-flow method (rounded noses only) would rate it about 15 % high, and flumerate has no method for it yet",
+                        "rate it with the coefficients of ISO 3846 by hand, or round the nose (radius at least 0.2·h1max, ISO 4374) and rate it as \"rounded\"",
+                    ))
+                }
+                other => {
+                    return Err(self.err(
+                        e.span(),
+                        "control.upstream_edge",
+                        format!("unknown upstream edge \"{other}\""),
+                        "use upstream_edge = \"rounded\" or \"square\"",
+                    ))
+                }
+            },
+            (StructureKind::Flume, Some(e)) => {
+                return Err(self.err(
+                    e.span(),
+                    "control.upstream_edge",
+                    "upstream_edge describes a broad-crested weir's crest, not a flume",
+                    "remove it, or set structure = \"weir\"",
+                ))
+            }
+            (StructureKind::Flume, None) => {}
+        }
 
         // [approach]
         let Some(approach) = &raw.approach else {

@@ -51,6 +51,7 @@ pub struct RawControl {
     pub displacement_ratio: Option<Num>,
     pub roughness: Option<Num>,
     pub structure: Option<Text>,
+    pub upstream_edge: Option<Text>,
 }
 
 /// `[approach]`

@@ -465,7 +465,7 @@ fn a_logged_tailwater_flags_drowned_rows_and_the_estimate_applies_only_to_weirs(
     let weir = dir.path().join("weir.toml");
     let text = std::fs::read_to_string(data("station.toml"))
         .expect("read")
-        .replace("[control]\n", "[control]\nstructure = \"weir\"\n");
+        .replace("[control]\n", "[control]\nstructure = \"weir\"\nupstream_edge = \"rounded\"\n");
     std::fs::write(&weir, text).expect("write");
     let (f, q) = flags(&weir, &["--submerged-estimate"]);
     assert_eq!(f[2], "submerged");
