@@ -73,7 +73,7 @@ pub struct ConvertArgs {
     /// For rows flagged submerged, give the drowned-flow estimate where its source applies
     #[arg(long = "submerged-estimate")]
     pub submerged_estimate: bool,
-    /// Exit with code 1 when any row is flagged other than ok or dry
+    /// Exit with code 1 when any row is flagged other than ok or dry (beyond-limits included)
     #[arg(long)]
     pub strict: bool,
     /// Time column (name, or 1-based position)
@@ -438,6 +438,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         range: station.range,
         stage,
         zero_m: s.zero * m_per,
+        invalid_bands: flumerate::rating::limits::invalid_head_bands(&model, station.range.max_head_m),
         plausible: {
             let dry_m = logger.dry_reading.unwrap_or(0.0) * m_per;
             let max_depth_m = logger.max_depth.map_or_else(
@@ -682,6 +683,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "rows_without_discharge": bounded_lines(&counts.unrated_lines),
             "rating_equation": rating_equation.as_ref().map(|e| e.printed(flumerate::units::Units::Si).sentence(flumerate::units::Units::Si)),
             "rating_equation_exponent": exponent,
+            "heads_beyond_limits_m": conv.invalid_bands.iter().map(|(a, b)| json!([a, if b.is_finite() { json!(b) } else { json!("top") }])).collect::<Vec<_>>(),
         },
         "rows": {
             "input_rows": n,
@@ -872,7 +874,12 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     r.push_str(&wrap(CAUTIONS, 100));
     r.push('\n');
     emit(r.as_bytes(), None)?;
-    let flagged = counts.per_flag[..4].iter().sum::<usize>();
+    let flagged: usize = Flag::ALL
+        .iter()
+        .zip(counts.per_flag)
+        .filter(|(f, _)| !f.counted())
+        .map(|(_, c)| c)
+        .sum();
     Ok(if a.strict && flagged > 0 {
         ExitCode::from(1)
     } else {

@@ -5,7 +5,7 @@
 //! (marked "from memory" where the value was not read in the standard itself); see
 //! docs/references.md S3, S4 and S5 for what was and was not read in the sources.
 
-use super::model::{RatingPoint, Structure, StructureKind};
+use super::model::{LossMethod, RatingPoint, Structure, StructureKind};
 use crate::hydraulics::Section;
 
 /// What a limit is evaluated on.
@@ -129,6 +129,16 @@ pub const LIMITS: &[Limit] = &[
         },
     },
     Limit {
+        id: "Cd>=0.90",
+        rule: "discharge coefficient at least 0.90 (below it the boundary layer takes so much of a narrow or long throat that the method's stated uncertainty no longer holds)",
+        source: "Bos 1989 and Clemmens et al. 2001: within their limits long-throated flumes and round-nosed broad-crested weirs have Cd of about 0.90 to 1.0 (from memory)",
+        kind: None,
+        holds: |c| match c.structure.loss {
+            LossMethod::FixedCd(_) => None,
+            _ => Some(c.point.cd >= 0.90 - 1e-12),
+        },
+    },
+    Limit {
         id: "surveyed",
         rule: "water level within the surveyed control section (above it the section is continued with vertical walls, an assumption)",
         source: "geometry",
@@ -167,4 +177,60 @@ pub fn broken_limits(structure: &Structure, point: &RatingPoint) -> Vec<&'static
     limits_for(structure.kind)
         .filter(|l| (l.holds)(&ctx) == Some(false))
         .collect()
+}
+
+/// Heads scanned for [`invalid_head_bands`].
+const BAND_SCAN: usize = 2000;
+
+/// The bands of heads in `(0, top_m]` where the model breaks some limit of application (or has
+/// no value), as (from, to) in metres, each edge found by bisection to 1e-9 m between scanned
+/// heads: what `rate` marks `valid = false`, in a form a long series can look up cheaply.
+pub fn invalid_head_bands(model: &super::RatingModel, top_m: f64) -> Vec<(f64, f64)> {
+    let invalid = |h: f64| match model.point(h) {
+        Ok(p) => !broken_limits(model.structure(), &p).is_empty(),
+        Err(_) => true,
+    };
+    let edge = |mut lo: f64, mut hi: f64, bad_lo: bool| {
+        while hi - lo > 1e-9 {
+            let mid = 0.5 * (lo + hi);
+            if invalid(mid) == bad_lo {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        if bad_lo {
+            lo
+        } else {
+            hi
+        }
+    };
+    let mut bands = Vec::new();
+    let mut open: Option<f64> = None;
+    let mut prev: Option<(f64, bool)> = None;
+    for k in 1..=BAND_SCAN {
+        let h = top_m * k as f64 / BAND_SCAN as f64;
+        let bad = invalid(h);
+        match (prev, bad) {
+            (None, true) => open = Some(0.0),
+            (Some((hp, false)), true) => open = Some(edge(hp, h, false)),
+            (Some((hp, true)), false) => {
+                if let Some(start) = open.take() {
+                    bands.push((start, edge(hp, h, true)));
+                }
+            }
+            _ => {}
+        }
+        prev = Some((h, bad));
+    }
+    if let Some(start) = open {
+        bands.push((start, f64::INFINITY));
+    }
+    bands
+}
+
+/// Whether `head_m` lies in one of `bands` (from [`invalid_head_bands`]).
+#[inline]
+pub fn in_bands(bands: &[(f64, f64)], head_m: f64) -> bool {
+    bands.iter().any(|&(lo, hi)| head_m >= lo && head_m <= hi)
 }

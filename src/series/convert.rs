@@ -3,7 +3,9 @@
 //! Per row: stage (or pressure minus barometric pressure, turned into depth) → head = stage − zero
 //! → plus the drift correction → rating (dense table, or the exact model above it) → 95 % band
 //! from the uncertainty inputs → one flag, most severe first: `missing`, `submerged`,
-//! `above-range`, `below-range`, `dry`, `ok` (design.md).
+//! `above-range`, `below-range`, `beyond-limits`, `dry`, `ok` (design.md). `beyond-limits` marks
+//! heads inside the station's range where the method breaks a limit of application, exactly as
+//! `rate` marks them `valid = false`.
 //!
 //! Summaries count the rows flagged `ok` or `dry`; each stands for the time to the next reading,
 //! at most the nominal logging interval, and a row that repeats another's instant stands for no
@@ -35,6 +37,8 @@ pub enum Flag {
     AboveRange,
     /// Head above the crest but below the station's range.
     BelowRange,
+    /// Head in the station's range, but outside the method's limits of application.
+    BeyondLimits,
     /// Head at or below the crest: no flow over the control.
     Dry,
     /// Within everything.
@@ -43,11 +47,12 @@ pub enum Flag {
 
 impl Flag {
     /// All flags, most severe first.
-    pub const ALL: [Flag; 6] = [
+    pub const ALL: [Flag; 7] = [
         Flag::Missing,
         Flag::Submerged,
         Flag::AboveRange,
         Flag::BelowRange,
+        Flag::BeyondLimits,
         Flag::Dry,
         Flag::Ok,
     ];
@@ -59,6 +64,7 @@ impl Flag {
             Flag::Submerged => "submerged",
             Flag::AboveRange => "above-range",
             Flag::BelowRange => "below-range",
+            Flag::BeyondLimits => "beyond-limits",
             Flag::Dry => "dry",
             Flag::Ok => "ok",
         }
@@ -163,6 +169,9 @@ pub struct Conversion<'a> {
     pub zero_m: f64,
     /// The stages the logger can physically read.
     pub plausible: Plausible,
+    /// Heads where the method breaks a limit of application
+    /// ([`crate::rating::limits::invalid_head_bands`]).
+    pub invalid_bands: Vec<(f64, f64)>,
     /// Usable drift points (UTC ms, staff − logger m), sorted.
     pub drift: Vec<(i64, f64)>,
     /// A logged tailwater: value-column index, metres per unit, logger reading at crest level.
@@ -209,7 +218,7 @@ pub struct Chunk {
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Counts {
     /// Rows per flag, in [`Flag::ALL`] order.
-    pub per_flag: [usize; 6],
+    pub per_flag: [usize; 7],
     /// Drowned rows whose discharge was replaced by the estimate.
     pub submerged_estimated: usize,
     /// Drowned rows for which no estimate applies (discharge left as the free-flow rating).
@@ -609,6 +618,8 @@ impl Conversion<'_> {
                             Flag::AboveRange
                         } else if head < self.range.min_head_m {
                             Flag::BelowRange
+                        } else if crate::rating::limits::in_bands(&self.invalid_bands, head) {
+                            Flag::BeyondLimits
                         } else {
                             Flag::Ok
                         };

@@ -463,9 +463,10 @@ fn a_logged_tailwater_flags_drowned_rows_and_the_estimate_applies_only_to_weirs(
     assert!((q[2] - q[0]).abs() < 1e-15);
     // the same structure declared a weir: the estimate replaces it (Villemonte 1947)
     let weir = dir.path().join("weir.toml");
-    let text = std::fs::read_to_string(data("station.toml"))
-        .expect("read")
-        .replace("[control]\n", "[control]\nstructure = \"weir\"\nupstream_edge = \"rounded\"\n");
+    let text = std::fs::read_to_string(data("station.toml")).expect("read").replace(
+        "[control]\n",
+        "[control]\nstructure = \"weir\"\nupstream_edge = \"rounded\"\n",
+    );
     std::fs::write(&weir, text).expect("write");
     let (f, q) = flags(&weir, &["--submerged-estimate"]);
     assert_eq!(f[2], "submerged");

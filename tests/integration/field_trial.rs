@@ -199,3 +199,105 @@ fn the_method_label_says_which_method_ran() {
         .code(2)
         .stderr(predicate::str::contains("control.coefficient").and(predicate::str::contains("u-shape")));
 }
+
+/// `convert` and `rate` agree on validity: a row whose head `rate` marks outside the limits of
+/// application is flagged `beyond-limits`, every other rated row in the range is `ok`.
+#[test]
+fn convert_and_rate_agree_on_validity() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    // a short throat: above about h1 = 0.2 m, H1/L > 0.7 (Clemmens et al. 2001, from memory)
+    let text = station_text(
+        "shape = \"rectangle\"\nwidth = 0.5\nlength = 0.3",
+        "shape = \"rectangle\"\nwidth = 1.5\nsill_height = 0.3",
+        "\"boundary-layer\"",
+        (0.05, 0.4),
+    ) + "\n[logger]\ntimezone = \"UTC\"\nzero = 0.0\n";
+    let st = station_file(dir.path(), "short.toml", &text);
+    let logger = dir.path().join("l.csv");
+    let mut csv_text = String::from("time,stage\n");
+    for k in 0..36 {
+        csv_text.push_str(&format!(
+            "2026-05-01 {:02}:{:02},{:.3}\n",
+            k / 4,
+            (k % 4) * 15,
+            0.05 + 0.01 * k as f64
+        ));
+    }
+    std::fs::write(&logger, csv_text).expect("write");
+    let out = dir.path().join("o.csv");
+    flumerate()
+        .arg("convert")
+        .arg(&logger)
+        .arg("--station")
+        .arg(&st)
+        .arg("-o")
+        .arg(&out)
+        .assert()
+        .success();
+    let mut r = csv::Reader::from_path(&out).expect("csv");
+    let (mut ok, mut beyond) = (0, 0);
+    for rec in r.records() {
+        let rec = rec.expect("record");
+        let head: f64 = rec[2].parse().expect("head");
+        let flag = rec[6].to_string();
+        let row = crate::common::rate_one(&st, head, "si");
+        let valid = row["valid"].as_bool().expect("valid");
+        match flag.as_str() {
+            "ok" => {
+                assert!(valid, "h = {head}: ok in convert, not valid in rate");
+                ok += 1;
+            }
+            "beyond-limits" => {
+                assert!(!valid, "h = {head}: beyond-limits in convert, valid in rate");
+                beyond += 1;
+            }
+            other => assert!(matches!(other, "above-range" | "below-range"), "{other}"),
+        }
+    }
+    assert!(ok > 5 && beyond > 5, "ok {ok}, beyond {beyond}");
+}
+
+/// A row whose Cd falls below the range where the method's stated uncertainty holds is not valid,
+/// and says why: a 0.12 m wide, 3 m long throat (invented) reads Cd ≈ 0.63–0.82.
+#[test]
+fn implausible_coefficients_are_not_valid() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let st = station_file(
+        dir.path(),
+        "narrow.toml",
+        &station_text(
+            "shape = \"rectangle\"\nwidth = 0.12\nlength = 3.0",
+            "shape = \"rectangle\"\nwidth = 0.6\nsill_height = 0.2",
+            "\"boundary-layer\"",
+            (0.05, 0.4),
+        ),
+    );
+    let doc = rate_json(&st, &[]);
+    let mut seen = 0;
+    for row in doc["rows"].as_array().expect("rows") {
+        let cd = row["cd"].as_f64().expect("cd");
+        if cd < 0.90 {
+            assert_eq!(row["valid"], false, "Cd {cd}");
+            assert!(row["note"].as_str().expect("note").contains("Cd>=0.90"));
+            seen += 1;
+        }
+    }
+    assert!(seen > 10, "{seen} rows below 0.90");
+    // a fixed Cd chosen by the user is the user's: the limit does not apply
+    let fixed = station_file(
+        dir.path(),
+        "fixed.toml",
+        &station_text(
+            "shape = \"rectangle\"\nwidth = 0.5\nlength = 1.0",
+            "shape = \"rectangle\"\nwidth = 1.0\nsill_height = 0.2",
+            "0.85",
+            (0.1, 0.4),
+        ),
+    );
+    let doc = rate_json(&fixed, &[]);
+    assert!(doc["rows"]
+        .as_array()
+        .expect("rows")
+        .iter()
+        .all(|r| !r["note"].as_str().unwrap_or("").contains("Cd>=")));
+}
