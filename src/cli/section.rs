@@ -7,7 +7,7 @@ use std::process::ExitCode;
 use anyhow::{bail, Context};
 use clap::{Args, ValueEnum};
 use flumerate::hydraulics::{
-    alternate_depths_m, critical_depths_m, froude_number, normal_depth_m, specific_energy_m, PointsSection, Section,
+    alternate_depths_m, critical_depths_m, froude_number, normal_depths_m, specific_energy_m, PointsSection, Section,
     STANDARD_GRAVITY_M_S2,
 };
 use flumerate::report::sig;
@@ -209,6 +209,15 @@ pub fn run(a: SectionArgs) -> anyhow::Result<ExitCode> {
         if !(y.is_finite() && y > 0.0) {
             bail!("--depth must be greater than zero (got {depth})");
         }
+        if let Some(full) = section.full_depth_m() {
+            if y >= full {
+                bail!(
+                    "--depth {depth} is at or above the crown of the pipe ({} {}): the pipe flows full there and has no free surface, so no Froude number or specific energy\n  fix: give a depth below the crown",
+                    sig(units.length_from_si(full), 6),
+                    units.symbols().0
+                );
+            }
+        }
         doc.insert(format!("depth_{l}"), json!(depth));
         doc.insert("froude".into(), json!(froude_number(&section, y, q, g)));
         doc.insert(
@@ -231,8 +240,20 @@ pub fn run(a: SectionArgs) -> anyhow::Result<ExitCode> {
     }
     match (a.manning_n, a.slope) {
         (Some(n), Some(s)) => {
-            let yn = normal_depth_m(&section, q, n, s).context("normal depth")?;
-            doc.insert(format!("normal_depth_{l}"), len_out(yn));
+            let yn = normal_depths_m(&section, q, n, s).context("normal depth")?;
+            doc.insert(format!("normal_depth_{l}"), len_out(yn[0]));
+            doc.insert(
+                format!("normal_depths_{l}"),
+                Value::Array(yn.iter().map(|&y| len_out(y)).collect()),
+            );
+            if yn.len() > 1 {
+                warnings.push(format!(
+                    "the pipe carries this discharge in uniform flow at two depths, {} and {} {}: near full, flow can switch between them (and the pipe may surcharge)",
+                    sig(units.length_from_si(yn[0]), 6),
+                    sig(units.length_from_si(yn[1]), 6),
+                    units.symbols().0
+                ));
+            }
         }
         (None, None) => {}
         _ => bail!("the normal depth needs both --manning-n and --slope"),

@@ -44,6 +44,16 @@ pub enum FlowError {
         /// Pipe diameter (m).
         diameter_m: f64,
     },
+    /// More than a circular pipe carries in uniform flow part-full.
+    #[error("a pipe of diameter {diameter_m} m carries at most {max_discharge_m3s:.6} m³/s in uniform flow part-full (at {depth_m:.4} m, about 0.94 D): no normal depth for more")]
+    PipeOverCapacity {
+        /// Pipe diameter (m).
+        diameter_m: f64,
+        /// The largest part-full discharge (m³/s).
+        max_discharge_m3s: f64,
+        /// The depth at which it flows (m).
+        depth_m: f64,
+    },
     /// Manning's n and the bed slope must be positive.
     #[error("{what} must be greater than zero (got {value})")]
     NotPositive {
@@ -384,6 +394,60 @@ pub fn alternate_depths_m(
 /// (Chow 1959 eq. 5-6). Where the conveyance is not monotone (a pipe near full, a compound
 /// section) the shallowest depth that carries the discharge is returned.
 pub fn normal_depth_m(section: &Section, discharge_m3s: f64, manning_n: f64, bed_slope: f64) -> Result<f64, FlowError> {
+    if let Section::Circle { .. } = section {
+        return Ok(normal_depths_m(section, discharge_m3s, manning_n, bed_slope)?[0]);
+    }
+    normal_depth_open_m(section, discharge_m3s, manning_n, bed_slope)
+}
+
+/// Every depth (m) at which `discharge_m3s` flows uniformly (Manning), in ascending order. An open
+/// section has one. A circular pipe's conveyance A·R^(2/3) peaks near 0.94·D and falls towards
+/// full (Chow 1959 §6-5, from memory as to the section number): a discharge between the full-pipe
+/// and the peak part-full capacity flows at two depths, both returned; above the peak there is
+/// no normal depth part-full, an error that says the pipe's largest part-full discharge.
+pub fn normal_depths_m(
+    section: &Section,
+    discharge_m3s: f64,
+    manning_n: f64,
+    bed_slope: f64,
+) -> Result<Vec<f64>, FlowError> {
+    let Section::Circle { diameter_m } = section else {
+        return Ok(vec![normal_depth_open_m(section, discharge_m3s, manning_n, bed_slope)?]);
+    };
+    let d = *diameter_m;
+    check_manning_inputs(discharge_m3s, manning_n, bed_slope)?;
+    let conveyance = |y: f64| section.area_m2(y) * section.hydraulic_radius_m(y).powf(2.0 / 3.0);
+    // the peak of conveyance: golden-section search on [0.5 D, D] (Kiefer 1953)
+    let (mut a, mut b) = (0.5 * d, d);
+    let ratio = (5f64.sqrt() - 1.0) / 2.0;
+    while b - a > 1e-12 * d {
+        let c = b - ratio * (b - a);
+        let e = a + ratio * (b - a);
+        if conveyance(c) > conveyance(e) {
+            b = e;
+        } else {
+            a = c;
+        }
+    }
+    let y_peak = 0.5 * (a + b);
+    let target = discharge_m3s * manning_n / bed_slope.sqrt();
+    let k_peak = conveyance(y_peak);
+    if target > k_peak {
+        return Err(FlowError::PipeOverCapacity {
+            diameter_m: d,
+            max_discharge_m3s: k_peak * bed_slope.sqrt() / manning_n,
+            depth_m: y_peak,
+        });
+    }
+    let f = |y: f64| conveyance(y) - target;
+    let mut depths = vec![brent(f, d * 1e-12, y_peak, 0.0)?];
+    if conveyance(d) <= target && y_peak < d {
+        depths.push(brent(f, y_peak, d, 0.0)?);
+    }
+    Ok(depths)
+}
+
+fn check_manning_inputs(discharge_m3s: f64, manning_n: f64, bed_slope: f64) -> Result<(), FlowError> {
     if !(discharge_m3s.is_finite() && discharge_m3s > 0.0) {
         return Err(FlowError::DischargeNotPositive { discharge_m3s });
     }
@@ -399,6 +463,17 @@ pub fn normal_depth_m(section: &Section, discharge_m3s: f64, manning_n: f64, bed
             value: bed_slope,
         });
     }
+    Ok(())
+}
+
+/// The normal depth of an open section (or the lower one found scanning up from the invert).
+fn normal_depth_open_m(
+    section: &Section,
+    discharge_m3s: f64,
+    manning_n: f64,
+    bed_slope: f64,
+) -> Result<f64, FlowError> {
+    check_manning_inputs(discharge_m3s, manning_n, bed_slope)?;
     let target = discharge_m3s * manning_n / bed_slope.sqrt();
     let f = |y: f64| section.area_m2(y) * section.hydraulic_radius_m(y).powf(2.0 / 3.0) - target;
     // scan upward on a geometric grid for the first sign change, then bracket it

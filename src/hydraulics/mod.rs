@@ -9,7 +9,7 @@ pub mod roots;
 pub mod section;
 
 pub use flow::{
-    alternate_depths_m, critical_at_energy, critical_depths_m, froude_number, normal_depth_m, specific_energy_m,
-    AlternateDepths, CriticalState, FlowError, STANDARD_GRAVITY_M_S2,
+    alternate_depths_m, critical_at_energy, critical_depths_m, froude_number, normal_depth_m, normal_depths_m,
+    specific_energy_m, AlternateDepths, CriticalState, FlowError, STANDARD_GRAVITY_M_S2,
 };
 pub use section::{GeometryError, PointsSection, Section};

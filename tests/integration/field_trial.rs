@@ -301,3 +301,57 @@ fn implausible_coefficients_are_not_valid() {
         .iter()
         .all(|r| !r["note"].as_str().unwrap_or("").contains("Cd>=")));
 }
+
+/// Circle normal depth wherever it exists: near full a pipe carries one discharge at two depths
+/// (both reported), the largest part-full discharge flows at about 0.938 D (Chow 1959, from
+/// memory), and a depth above the crown is an error, never Fr = 0.
+#[test]
+fn section_edge_cases_of_a_pipe() {
+    use flumerate::hydraulics::{normal_depths_m, Section};
+    let pipe = Section::Circle { diameter_m: 1.0 };
+    let (n, s): (f64, f64) = (0.013, 0.001);
+    let k = |y: f64| pipe.area_m2(y) * pipe.hydraulic_radius_m(y).powf(2.0 / 3.0) * s.sqrt() / n;
+    // analytic check of each depth: Manning's Q at the depth equals the discharge asked for
+    let two = normal_depths_m(&pipe, 0.8, n, s).expect("two depths");
+    assert_eq!(two.len(), 2);
+    for y in &two {
+        assert!(rel(k(*y), 0.8) < 1e-9, "{y}");
+    }
+    assert!(two[0] < 0.938 && two[1] > 0.938 && two[1] < 1.0);
+    let one = normal_depths_m(&pipe, 0.5, n, s).expect("one depth");
+    assert_eq!(one.len(), 1);
+    assert!(rel(k(one[0]), 0.5) < 1e-9);
+    let err = normal_depths_m(&pipe, 0.9, n, s)
+        .expect_err("over capacity")
+        .to_string();
+    assert!(err.contains("at most 0.81"), "{err}");
+    let peak_depth: f64 = err
+        .split(" (at ")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse().ok())
+        .expect("depth");
+    assert!((0.935..0.941).contains(&peak_depth), "{peak_depth}");
+    // the command line
+    flumerate()
+        .args(["section", "--shape", "circle", "--diameter", "1", "--discharge", "0.8"])
+        .args(["--manning-n", "0.013", "--slope", "0.001", "--format", "json"])
+        .assert()
+        .code(1)
+        .stdout(predicate::str::contains("two depths"));
+    flumerate()
+        .args([
+            "section",
+            "--shape",
+            "circle",
+            "--diameter",
+            "1",
+            "--discharge",
+            "0.5",
+            "--depth",
+            "1.2",
+        ])
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("above the crown"));
+}
