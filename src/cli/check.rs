@@ -49,9 +49,14 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
     let show = |m: f64| format!("{} {lu}", sig(units.length_from_si(m), 4));
     let _ = writeln!(
         s,
-        "range: {} to {} above the crest, checked at {} heads\n",
+        "range: {} to {} above the crest{}, checked at {} heads\n",
         show(r.min_head_m),
         show(r.max_head_m),
+        match r.source {
+            flumerate::station::RangeSource::Given => "",
+            flumerate::station::RangeSource::Limits =>
+                " (no [range] in the file: the heads the limits of application allow, to first order)",
+        },
         heads.len()
     );
 

@@ -143,11 +143,11 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         .rows
         .iter()
         .map(|r| match r.point {
-            Some(p) => {
+            Some(p) if p.discharge_m3s > 0.0 => {
                 let (ml, _, level) = modular_limit_at(&model, &exit, tailwater.as_ref(), &p);
                 (ml, level)
             }
-            None => (f64::NAN, f64::NAN),
+            _ => (f64::NAN, f64::NAN),
         })
         .collect();
     let report = RatingReport {

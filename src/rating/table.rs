@@ -27,6 +27,14 @@ pub enum HeadRangeError {
         /// Last head.
         to: f64,
     },
+    /// A head below the crest.
+    #[error("{what} must be zero or more (got {value}): heads are measured above the crest")]
+    Negative {
+        /// Which flag.
+        what: &'static str,
+        /// Its value.
+        value: f64,
+    },
     /// Too many rows.
     #[error("{rows} rows is more than the {max} a table may have: use a larger --step")]
     TooManyRows {
@@ -37,11 +45,30 @@ pub enum HeadRangeError {
     },
 }
 
-/// Heads from `from` to `to` (inclusive) every `step`, in one unit. The last head is `to` even
-/// when the range is not a whole number of steps. Heads are computed as `from + i·step` so that
-/// rounding does not accumulate.
+/// The decimal scale 10^d (d ≤ 12) at which `x` is a whole number, to 1e-9 of itself.
+fn decimal_scale(x: f64) -> f64 {
+    let mut scale = 1.0;
+    for _ in 0..12 {
+        if ((x * scale).round() - x * scale).abs() <= 1e-9 * (x * scale).abs().max(1e-9) {
+            break;
+        }
+        scale *= 10.0;
+    }
+    scale
+}
+
+/// Heads from `from` to `to` (inclusive) every `step`, in one unit; `from` may be 0 (the crest,
+/// no flow). The last head is `to` even when the range is not a whole number of steps. Heads
+/// come from whole numbers of steps at the decimal scale of `from` and `step`, head = (F + k·S)/10^d,
+/// so they print as people write them (0.07, not 0.06999999999999999).
 pub fn head_sequence(from: f64, to: f64, step: f64) -> Result<Vec<f64>, HeadRangeError> {
-    for (what, value) in [("--from", from), ("--to", to), ("--step", step)] {
+    if !(from.is_finite() && from >= 0.0) {
+        return Err(HeadRangeError::Negative {
+            what: "--from",
+            value: from,
+        });
+    }
+    for (what, value) in [("--to", to), ("--step", step)] {
         if !(value.is_finite() && value > 0.0) {
             return Err(HeadRangeError::NotPositive { what, value });
         }
@@ -57,7 +84,9 @@ pub fn head_sequence(from: f64, to: f64, step: f64) -> Result<Vec<f64>, HeadRang
         });
     }
     let n = n as usize;
-    let mut heads: Vec<f64> = (0..=n).map(|i| from + i as f64 * step).collect();
+    let scale = decimal_scale(from).max(decimal_scale(step));
+    let (first, each) = ((from * scale).round(), (step * scale).round());
+    let mut heads: Vec<f64> = (0..=n).map(|k| (first + k as f64 * each) / scale).collect();
     let last = heads[heads.len() - 1];
     if to - last > 1e-9 * step {
         heads.push(to);
@@ -110,6 +139,23 @@ impl RatingTable {
         let rows: Vec<RatingRow> = heads_m
             .iter()
             .map(|&head_m| match model.point(head_m) {
+                // the water level with the crest: no flow, nothing to rate
+                _ if head_m == 0.0 => RatingRow {
+                    head_m,
+                    point: Some(RatingPoint {
+                        head_m: 0.0,
+                        energy_head_m: 0.0,
+                        discharge_m3s: 0.0,
+                        critical_depth_m: 0.0,
+                        cd: f64::NAN,
+                        cv: f64::NAN,
+                        froude_approach: 0.0,
+                        approach_velocity_m_s: 0.0,
+                        control_critical_states: 1,
+                    }),
+                    valid: false,
+                    notes: vec!["no flow: the water is level with the crest".into()],
+                },
                 Ok(point) => {
                     let broken = broken_limits(model.structure(), &point);
                     RatingRow {

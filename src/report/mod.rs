@@ -24,6 +24,16 @@ pub fn sig(v: f64, n: usize) -> String {
     format!("{v:.decimals$}")
 }
 
+/// A head converted between units as the user wrote it: rounded to 12 significant figures, so
+/// 0.3 ft → m → ft prints 0.3, not 0.30000000000000004 (far below any survey's precision).
+pub fn as_written(v: f64) -> f64 {
+    if v == 0.0 || !v.is_finite() {
+        return v + 0.0;
+    }
+    let scale = 10f64.powi(11 - v.abs().log10().floor() as i32);
+    (v * scale).round() / scale + 0.0
+}
+
 /// Wraps `text` at `width` columns (on spaces).
 pub fn wrap(text: &str, width: usize) -> String {
     let mut out = String::new();

@@ -114,7 +114,7 @@ impl<'a> RatingReport<'a> {
         let p = row.point;
         let num = |f: &dyn Fn(&crate::rating::RatingPoint) -> f64| Cell::Num(p.as_ref().map_or(f64::NAN, f));
         let mut cells = vec![
-            Cell::Num(u.length_from_si(row.head_m)),
+            Cell::Num(super::as_written(u.length_from_si(row.head_m))),
             num(&|p| u.discharge_from_si(p.discharge_m3s)),
             num(&|p| u.length_from_si(p.energy_head_m)),
             num(&|p| u.length_from_si(p.critical_depth_m)),
@@ -276,7 +276,7 @@ impl<'a> RatingReport<'a> {
                 .cells(i, row)
                 .into_iter()
                 .map(|c| match c {
-                    Cell::Num(v) if v.is_finite() => format!("{v}"),
+                    Cell::Num(v) if v.is_finite() => format!("{}", v + 0.0),
                     Cell::Num(_) => String::new(),
                     Cell::Bool(b) => b.to_string(),
                     Cell::Text(t) => t,
@@ -362,7 +362,7 @@ impl<'a> RatingReport<'a> {
                 let mut m = Map::new();
                 for (h, c) in headers.iter().zip(self.cells(i, row)) {
                     let v = match c {
-                        Cell::Num(v) if v.is_finite() => json!(v),
+                        Cell::Num(v) if v.is_finite() => json!(v + 0.0),
                         Cell::Num(_) => Value::Null,
                         Cell::Bool(b) => json!(b),
                         Cell::Text(t) => json!(t),
@@ -433,7 +433,10 @@ impl<'a> RatingReport<'a> {
         for (i, row) in self.table.rows.iter().enumerate() {
             let p = row.point;
             let f = |g: &dyn Fn(&crate::rating::RatingPoint) -> f64, digits: usize| {
-                p.as_ref().map_or("-".to_string(), |p| format!("{:.digits$}", g(p)))
+                p.as_ref()
+                    .map(g)
+                    .filter(|v| v.is_finite())
+                    .map_or("-".to_string(), |v| format!("{:.digits$}", v + 0.0))
             };
             let u95 = self
                 .uncertainty

@@ -26,6 +26,8 @@ pub enum LengthUnit {
     Metre,
     /// millimetre
     Millimetre,
+    /// centimetre
+    Centimetre,
     /// international foot, 0.3048 m exactly
     Foot,
     /// inch, 0.0254 m exactly
@@ -33,10 +35,11 @@ pub enum LengthUnit {
 }
 
 impl LengthUnit {
-    /// Parses `m`, `mm`, `ft` or `in`.
+    /// Parses `m`, `cm`, `mm`, `ft` or `in`.
     pub fn parse(s: &str) -> Option<Self> {
         match s {
             "m" => Some(Self::Metre),
+            "cm" => Some(Self::Centimetre),
             "mm" => Some(Self::Millimetre),
             "ft" => Some(Self::Foot),
             "in" => Some(Self::Inch),
@@ -49,6 +52,7 @@ impl LengthUnit {
         match self {
             Self::Metre => 1.0,
             Self::Millimetre => 0.001,
+            Self::Centimetre => 0.01,
             Self::Foot => 0.3048,
             Self::Inch => 0.0254,
         }
@@ -59,6 +63,7 @@ impl LengthUnit {
         match self {
             Self::Metre => "m",
             Self::Millimetre => "mm",
+            Self::Centimetre => "cm",
             Self::Foot => "ft",
             Self::Inch => "in",
         }
@@ -90,6 +95,46 @@ pub struct HeadRange {
     pub min_head_m: f64,
     /// Highest head (m).
     pub max_head_m: f64,
+    /// Where the range comes from.
+    pub source: RangeSource,
+}
+
+/// Where a station's head range comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RangeSource {
+    /// The station file's `[range]`.
+    Given,
+    /// No `[range]`: the heads the method's limits of application allow, to first order
+    /// ([`HeadRange::from_limits`]).
+    Limits,
+}
+
+impl HeadRange {
+    /// A range from the limits of application when the station gives none: for a flume
+    /// max(0.05 m, 0.07·L) to 0.7·L (no more than 3·b for a rectangular throat); for a weir
+    /// max(0.06 m, 0.07·L) to min(0.57·L, 1.5·p1) (ISO 4359, ISO 4374, Clemmens et al. 2001; the
+    /// bounds from memory, docs/references.md S3–S5). The limits are judged on the energy head,
+    /// which these gauged heads approach from below, so rows at the very top may still be marked.
+    pub fn from_limits(structure: &crate::rating::Structure) -> Option<Self> {
+        let l = structure.control_length_m;
+        let (lo, hi) = match structure.kind {
+            crate::rating::StructureKind::Flume => {
+                let mut hi = 0.7 * l;
+                if let Section::Rectangle { width_m } = structure.control {
+                    hi = hi.min(3.0 * width_m);
+                }
+                (0.05f64.max(0.07 * l), hi)
+            }
+            crate::rating::StructureKind::Weir => {
+                (0.06f64.max(0.07 * l), (0.57 * l).min(1.5 * structure.sill_height_m))
+            }
+        };
+        (lo < hi).then_some(Self {
+            min_head_m: lo,
+            max_head_m: hi,
+            source: RangeSource::Limits,
+        })
+    }
 }
 
 /// The exit of the structure (used by the modular-limit check).
@@ -705,7 +750,7 @@ impl Ctx<'_> {
                     u.span(),
                     "length_unit",
                     format!("unknown length unit \"{}\"", u.get_ref()),
-                    "use \"m\", \"mm\", \"ft\" or \"in\"",
+                    "use \"m\", \"cm\", \"mm\", \"ft\" or \"in\"",
                 )
             })?,
             None => {
@@ -964,46 +1009,57 @@ impl Ctx<'_> {
             None => 1.0,
         };
 
-        // [range]
-        let Some(range) = &raw.range else {
-            return Err(self.missing(0..0, "[range]", "add a [range] table with min_head and max_head"));
-        };
-        let r = range.get_ref();
-        let min_head_m = match &r.min_head {
-            Some(n) => self.positive_length(
-                n,
-                "range.min_head",
-                unit,
-                "heads are measured above the crest: give the lowest head the rating must serve",
-            )?,
-            None => {
-                return Err(self.missing(
-                    range.span(),
-                    "range.min_head",
-                    "add min_head = the lowest head the rating must serve",
-                ))
-            }
-        };
-        let max_head_m = match &r.max_head {
-            Some(n) => {
-                let v =
-                    self.positive_length(n, "range.max_head", unit, "give the highest head the rating must serve")?;
-                if v <= min_head_m {
-                    return Err(self.err(
-                        n.span(),
-                        "range.max_head",
-                        "max_head must be above min_head",
-                        "swap the two values or correct one of them",
-                    ));
-                }
-                v
-            }
-            None => {
-                return Err(self.missing(
-                    range.span(),
-                    "range.max_head",
-                    "add max_head = the highest head the rating must serve",
-                ))
+        // [range]: optional; without it, the heads the limits of application allow
+        let given_range = match &raw.range {
+            None => None,
+            Some(range) => {
+                let r = range.get_ref();
+                let min_head_m = match &r.min_head {
+                    Some(n) => self.positive_length(
+                        n,
+                        "range.min_head",
+                        unit,
+                        "heads are measured above the crest: give the lowest head the rating must serve",
+                    )?,
+                    None => {
+                        return Err(self.missing(
+                            range.span(),
+                            "range.min_head",
+                            "add min_head = the lowest head the rating must serve",
+                        ))
+                    }
+                };
+                let max_head_m = match &r.max_head {
+                    Some(n) => {
+                        let v = self.positive_length(
+                            n,
+                            "range.max_head",
+                            unit,
+                            "give the highest head the rating must serve",
+                        )?;
+                        if v <= min_head_m {
+                            return Err(self.err(
+                                n.span(),
+                                "range.max_head",
+                                "max_head must be above min_head",
+                                "swap the two values or correct one of them",
+                            ));
+                        }
+                        v
+                    }
+                    None => {
+                        return Err(self.missing(
+                            range.span(),
+                            "range.max_head",
+                            "add max_head = the highest head the rating must serve",
+                        ))
+                    }
+                };
+                Some(HeadRange {
+                    min_head_m,
+                    max_head_m,
+                    source: RangeSource::Given,
+                })
             }
         };
 
@@ -1108,6 +1164,26 @@ impl Ctx<'_> {
             Some(l) => Some(self.logger(l)?),
         };
 
+        let structure = Structure {
+            control: control_section,
+            control_length_m: length_m,
+            approach: approach_section,
+            sill_height_m,
+            approach_alpha: alpha,
+            loss,
+            kind,
+            gravity_m_s2: gravity,
+        };
+        let range = match given_range {
+            Some(r) => r,
+            None => HeadRange::from_limits(&structure).ok_or_else(|| {
+                self.missing(
+                    0..0,
+                    "[range]",
+                    "the limits of application leave no heads for this structure: add a [range] table with min_head and max_head",
+                )
+            })?,
+        };
         Ok(Station {
             name,
             datum: raw.datum.as_ref().map(|d| escape_controls(d.get_ref().trim())),
@@ -1117,17 +1193,8 @@ impl Ctx<'_> {
                 format!("{:x}", sha2::Sha256::digest(self.text.as_bytes()))
             },
             length_unit: unit,
-            structure: Structure {
-                control: control_section,
-                control_length_m: length_m,
-                approach: approach_section,
-                sill_height_m,
-                approach_alpha: alpha,
-                loss,
-                kind,
-                gravity_m_s2: gravity,
-            },
-            range: HeadRange { min_head_m, max_head_m },
+            structure,
+            range,
             exit,
             tailwater,
             uncertainty,

@@ -355,3 +355,77 @@ fn section_edge_cases_of_a_pipe() {
         .code(2)
         .stderr(predicate::str::contains("above the crown"));
 }
+
+/// Table heads come from whole numbers of steps, so CSV shows them as people write them, in SI
+/// and in US units; --from 0 gives the Q = 0 row (analytic: no flow at the crest).
+#[test]
+fn heads_are_printed_as_people_write_them() {
+    let heads = |args: &[&str]| -> Vec<String> {
+        let out = flumerate()
+            .arg("rate")
+            .arg(CANAL)
+            .args(["--format", "csv"])
+            .args(args)
+            .output()
+            .expect("run");
+        String::from_utf8_lossy(&out.stdout)
+            .lines()
+            .skip(1)
+            .map(|l| l.split(',').next().unwrap_or_default().to_string())
+            .collect()
+    };
+    assert_eq!(
+        heads(&["--from", "0.03", "--to", "0.1", "--step", "0.01"]),
+        ["0.03", "0.04", "0.05", "0.06", "0.07", "0.08", "0.09", "0.1"]
+    );
+    assert_eq!(
+        heads(&["--from", "0.1", "--to", "1", "--step", "0.1", "--units", "us"]),
+        ["0.1", "0.2", "0.3", "0.4", "0.5", "0.6", "0.7", "0.8", "0.9", "1"]
+    );
+    let doc = rate_json(Path::new(CANAL), &["--from", "0", "--to", "0.02", "--step", "0.01"]);
+    let first = &doc["rows"][0];
+    assert_eq!(first["head_m"], 0.0);
+    assert_eq!(first["discharge_m3s"], 0.0);
+    assert_eq!(first["valid"], false);
+    assert!(!doc.to_string().contains("-0.0"), "no negative zero");
+}
+
+/// [range] may be left out: with --from/--to the table needs none, and without them the range
+/// comes from the limits of application (said so by `check`); lengths may be in centimetres.
+#[test]
+fn range_is_optional_and_centimetres_are_a_unit() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let text = "name = \"no range, in cm (test)\"\nlength_unit = \"cm\"\n[control]\nshape = \"rectangle\"\nwidth = 50\nlength = 100\n[approach]\nshape = \"rectangle\"\nwidth = 100\nsill_height = 10\n";
+    let st = station_file(dir.path(), "cm.toml", text);
+    let row = crate::common::rate_one(&st, 0.2, "si");
+    // the same structure in metres: docs/references.md C3's flume, rated by the default method
+    let metres = station_file(
+        dir.path(),
+        "m.toml",
+        &station_text(
+            "shape = \"rectangle\"\nwidth = 0.5\nlength = 1.0",
+            "shape = \"rectangle\"\nwidth = 1.0\nsill_height = 0.1",
+            "\"boundary-layer\"",
+            (0.05, 0.4),
+        ),
+    );
+    let same = crate::common::rate_one(&metres, 0.2, "si");
+    assert!(
+        rel(
+            row["discharge_m3s"].as_f64().expect("q"),
+            same["discharge_m3s"].as_f64().expect("q")
+        ) < 1e-12
+    );
+    flumerate()
+        .arg("check")
+        .arg(&st)
+        .assert()
+        .stdout(predicate::str::contains(
+            "no [range] in the file: the heads the limits of application allow",
+        ));
+    let doc = rate_json(&st, &[]);
+    let rows = doc["rows"].as_array().expect("rows");
+    // flume limits (ISO 4359 and Clemmens et al. 2001, from memory): 0.07 m to 0.7 m for L = 1 m
+    assert!((rows[0]["head_m"].as_f64().expect("h") - 0.07).abs() < 1e-12);
+    assert!((rows[rows.len() - 1]["head_m"].as_f64().expect("h") - 0.7).abs() < 1e-12);
+}
