@@ -610,9 +610,37 @@ pub fn submerged_discharge_estimate_m3s(
     modular_limit: f64,
     exponent: f64,
 ) -> Option<f64> {
-    let weir = model.structure().kind == crate::rating::StructureKind::Weir;
-    (weir && submergence > modular_limit && submergence <= MAX_CORRECTABLE_SUBMERGENCE)
-        .then(|| free_flow_m3s * villemonte_ratio(submergence, exponent))
+    submerged_estimate(model, free_flow_m3s, submergence, modular_limit, exponent).ok()
+}
+
+/// Why a drowned row gets no estimate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NoEstimate {
+    /// Not drowned: the submergence does not exceed the modular limit.
+    Modular,
+    /// The structure is a flume: Villemonte's relation was derived for weirs.
+    NotAWeir,
+    /// The submergence is above [`MAX_CORRECTABLE_SUBMERGENCE`]: no correction is practical.
+    TooDrowned,
+}
+
+/// [`submerged_discharge_estimate_m3s`], saying why when there is no estimate.
+pub fn submerged_estimate(
+    model: &RatingModel,
+    free_flow_m3s: f64,
+    submergence: f64,
+    modular_limit: f64,
+    exponent: f64,
+) -> Result<f64, NoEstimate> {
+    if submergence <= modular_limit {
+        Err(NoEstimate::Modular)
+    } else if model.structure().kind != crate::rating::StructureKind::Weir {
+        Err(NoEstimate::NotAWeir)
+    } else if submergence > MAX_CORRECTABLE_SUBMERGENCE {
+        Err(NoEstimate::TooDrowned)
+    } else {
+        Ok(free_flow_m3s * villemonte_ratio(submergence, exponent))
+    }
 }
 
 /// How the check over a range of discharges came out.

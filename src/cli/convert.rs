@@ -14,7 +14,9 @@ use flumerate::report::{sig, wrap, CAUTIONS};
 use flumerate::series::convert::{
     time_note_lines, Conversion, Counts, Flag, Impossible, Plausible, StageSource, Summaries,
 };
-use flumerate::series::correct::{drift_points, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries};
+use flumerate::series::correct::{
+    drift_points, drift_warnings, metres_per, pascals_per, usable_drift, DriftPoint, TimeSeries,
+};
 use flumerate::series::dense::DenseRating;
 use flumerate::series::output::{write_summary, SeriesWriter, TableFile};
 use flumerate::series::read::{read_logger, ColumnRef, ReadSettings};
@@ -268,16 +270,18 @@ fn side_file(path: &Path, prefix: &str, formats: &[TimeFormat], zone: &Zone) -> 
         let rec = rec.with_context(|| format!("{}:{line}: unreadable record", path.display()))?;
         let t = rec.get(ti).unwrap_or("");
         let v = rec.get(vi).unwrap_or("");
-        let wall = parse_any(formats, t).with_context(|| {
-            format!(
-                "{}:{line}: time \"{t}\" matches none of the logger's formats",
-                path.display()
-            )
-        })?;
-        let (utc, _) = resolve(zone, &[wall]);
+        let utc = match side_time(formats, zone, t.trim()) {
+            Some(u) => u,
+            None => bail!(
+                "{}:{line}: time \"{t}\" is neither ISO 8601 nor in the logger's formats ({})\n  fix: write times as 2026-10-12T10:00 (on the logger's clock) or 2026-10-12T10:00:00+02:00 (with its offset), or as the logger writes them",
+                path.display(),
+                formats.iter().map(|f| f.as_str()).collect::<Vec<_>>().join(", ")
+            ),
+        };
+        let utc = [utc];
         if utc[0] == NO_TIME {
             bail!(
-                "{}:{line}: time \"{t}\" does not exist on the logger's clock (daylight-saving gap)",
+                "{}:{line}: time \"{t}\" does not exist on the logger's clock (daylight-saving gap)\n  fix: give the time with its UTC offset, e.g. 2026-03-29T03:30:00+02:00",
                 path.display()
             );
         }
@@ -300,6 +304,36 @@ const MAX_LISTED_LINES: usize = 1000;
 /// A list of lines for the provenance record: the total and the first [`MAX_LISTED_LINES`].
 fn bounded_lines(lines: &[u32]) -> serde_json::Value {
     json!({ "total": lines.len(), "first": &lines[..lines.len().min(MAX_LISTED_LINES)] })
+}
+
+/// The instant (UTC ms) of a side-file time: ISO 8601 with an offset (`…+02:00`, `…Z`) as it
+/// says; ISO 8601 without one, or any of the logger's formats, on the logger's clock;
+/// [`NO_TIME`] for a local time the clock skipped; `None` when nothing reads it.
+fn side_time(formats: &[TimeFormat], zone: &Zone, t: &str) -> Option<i64> {
+    if let Ok(dt) = chrono::DateTime::parse_from_rfc3339(t) {
+        return Some(dt.timestamp_millis());
+    }
+    for f in [
+        "%Y-%m-%dT%H:%M:%S%:z",
+        "%Y-%m-%dT%H:%M%:z",
+        "%Y-%m-%d %H:%M:%S%:z",
+        "%Y-%m-%d %H:%M%:z",
+    ] {
+        if let Ok(dt) = chrono::DateTime::parse_from_str(t, f) {
+            return Some(dt.timestamp_millis());
+        }
+    }
+    let iso: Vec<TimeFormat> = [
+        "%Y-%m-%dT%H:%M:%S%.f",
+        "%Y-%m-%dT%H:%M",
+        "%Y-%m-%d %H:%M:%S%.f",
+        "%Y-%m-%d %H:%M",
+    ]
+    .iter()
+    .map(|f| TimeFormat::new(f))
+    .collect();
+    let wall = parse_any(formats, t).or_else(|| parse_any(&iso, t))?;
+    Some(resolve(zone, &[wall]).0[0])
 }
 
 fn lines_text(lines: &[u32], max: usize) -> String {
@@ -462,6 +496,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         bail!("a tailwater column needs its zero: add [logger] tailwater_zero (the tailwater logger reading with the water level with the crest) or give --tailwater-zero");
     }
     let mut drift_record: Vec<DriftPoint> = Vec::new();
+    let mut drift_warns: Vec<String> = Vec::new();
     if let Some(path) = &a.visits {
         let side = side_file(path, "head", &s.read.formats, &s.zone)?;
         visits_sha256 = Some(side.sha256);
@@ -503,6 +538,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             max_gap,
         );
         conv.drift = usable_drift(&drift_record);
+        drift_warns = drift_warnings(&conv.drift);
     }
 
     // 5. convert and write, chunk by chunk
@@ -659,6 +695,7 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
                 "visits_file": p.display().to_string(),
                 "visits_sha256": visits_sha256,
                 "rule": "staff minus logger at each visit, linear in time between visits, constant outside",
+                "warnings": drift_warns,
                 "visits": drift_record.iter().map(|d| json!({
                     "time_utc_ms": d.time_ms,
                     "staff_head_m": d.staff_head_m,
@@ -715,7 +752,12 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             },
             "time_notes": time_notes.iter().map(|(k, ls)| (k.to_string(), bounded_lines(ls))).collect::<serde_json::Map<_, _>>(),
             "submerged_estimated": counts.submerged_estimated,
-            "submerged_not_estimated": counts.submerged_not_estimated,
+            "submerged_not_estimated": {
+                "total": counts.submerged_not_estimated,
+                "flume_not_weir": counts.submerged_not_a_weir,
+                "submergence_above_0_90": counts.submerged_too_drowned,
+                "estimate_not_asked_for": counts.submerged_not_asked,
+            },
         },
         "nominal_interval_s": interval_s,
         "cautions": CAUTIONS,
@@ -858,10 +900,17 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             ));
         }
     }
+    for w in &drift_warns {
+        r.push_str(&format!("WARNING: {w}\n"));
+    }
     if counts.submerged_not_estimated + counts.submerged_estimated > 0 {
         r.push_str(&format!(
-            "submerged rows: {} with the drowned-flow estimate (Villemonte 1947, an estimate), {} left at the free-flow rating (reads high)\n",
-            counts.submerged_estimated, counts.submerged_not_estimated
+            "submerged rows: {} with the drowned-flow estimate (Villemonte 1947, an estimate), {} left at the free-flow rating (reads high): {} because the structure is a flume (Villemonte's relation is for weirs), {} drowned beyond 0.90 (no correction is practical), {} without --submerged-estimate\n",
+            counts.submerged_estimated,
+            counts.submerged_not_estimated,
+            counts.submerged_not_a_weir,
+            counts.submerged_too_drowned,
+            counts.submerged_not_asked
         ));
     }
     let total: f64 = daily.iter().map(|d| d.volume_m3).sum();

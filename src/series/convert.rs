@@ -23,7 +23,7 @@ use super::time::{civil_from_days, date_string, local_day_start_utc, TimeNote, Z
 use super::timeline::Timeline;
 use crate::rating::RatingModel;
 use crate::station::HeadRange;
-use crate::tailwater::{submerged_discharge_estimate_m3s, Tailwater};
+use crate::tailwater::{submerged_estimate, NoEstimate, Tailwater};
 use crate::uncertainty::{BandWeights, GumModel, Inputs, PeriodAccumulator, SeriesReading};
 
 /// One flag per row, most severe first.
@@ -223,6 +223,12 @@ pub struct Counts {
     pub submerged_estimated: usize,
     /// Drowned rows for which no estimate applies (discharge left as the free-flow rating).
     pub submerged_not_estimated: usize,
+    /// Of those: the structure is not a weir.
+    pub submerged_not_a_weir: usize,
+    /// Of those: submergence above 0.90.
+    pub submerged_too_drowned: usize,
+    /// Of those: no estimate was asked for.
+    pub submerged_not_asked: usize,
     /// Rows above the dense table, computed exactly.
     pub above_table: usize,
     /// Rows where the barometric series did not reach.
@@ -243,6 +249,9 @@ impl Counts {
         }
         self.submerged_estimated += o.submerged_estimated;
         self.submerged_not_estimated += o.submerged_not_estimated;
+        self.submerged_not_a_weir += o.submerged_not_a_weir;
+        self.submerged_too_drowned += o.submerged_too_drowned;
+        self.submerged_not_asked += o.submerged_not_asked;
         self.above_table += o.above_table;
         self.no_baro += o.no_baro;
         self.temperature_fallback += o.temperature_fallback;
@@ -632,13 +641,9 @@ impl Conversion<'_> {
                                 let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
                                 if s > r.modular_limit {
                                     flag = Flag::Submerged;
-                                    let est = if self.submerged_estimate {
-                                        submerged_discharge_estimate_m3s(model, q, s, r.modular_limit, self.exponent)
-                                    } else {
-                                        None
-                                    };
+                                    let est = submerged_estimate(model, q, s, r.modular_limit, self.exponent);
                                     match est {
-                                        Some(e) => {
+                                        Ok(e) if self.submerged_estimate => {
                                             let ratio = e / q;
                                             c.low_m3s[k] *= ratio;
                                             c.high_m3s[k] *= ratio;
@@ -646,7 +651,14 @@ impl Conversion<'_> {
                                             c.discharge_m3s[k] = e;
                                             counts.submerged_estimated += 1;
                                         }
-                                        None => counts.submerged_not_estimated += 1,
+                                        other => {
+                                            counts.submerged_not_estimated += 1;
+                                            match other {
+                                                Err(NoEstimate::NotAWeir) => counts.submerged_not_a_weir += 1,
+                                                Err(NoEstimate::TooDrowned) => counts.submerged_too_drowned += 1,
+                                                _ => counts.submerged_not_asked += 1,
+                                            }
+                                        }
                                     }
                                 }
                             }

@@ -46,8 +46,12 @@ impl TimeSeries {
                 return Some(p.1);
             }
         }
-        if i == 0 || i >= self.points.len() {
-            return None;
+        // before the first and after the last point the end value holds, within the same reach
+        if i == 0 {
+            return self.points.first().filter(|p| p.0 - t <= max_gap_ms).map(|p| p.1);
+        }
+        if i >= self.points.len() {
+            return self.points.last().filter(|p| t - p.0 <= max_gap_ms).map(|p| p.1);
         }
         let ((t0, v0), (t1, v1)) = (self.points[i - 1], self.points[i]);
         if t1 - t0 > max_gap_ms {
@@ -184,7 +188,48 @@ mod tests {
         assert_eq!(s.at(50, 200), Some(1.5));
         assert_eq!(s.at(100, 0), Some(2.0));
         assert_eq!(s.at(500, 200), None, "gap longer than allowed");
-        assert_eq!(s.at(-1, 200), None);
-        assert_eq!(s.at(1001, 200), None);
+        // beyond the ends the end value holds within the reach, and only within it
+        assert_eq!(s.at(-1, 200), Some(1.0));
+        assert_eq!(s.at(1001, 200), Some(3.0));
+        assert_eq!(s.at(-201, 200), None);
+        assert_eq!(s.at(1201, 200), None);
     }
+}
+
+/// A drift correction above this (m) is warned about: a pressure sensor that has moved by more
+/// than 5 mm between visits deserves a look at its mounting (common practice, no source).
+pub const DRIFT_WARNING_M: f64 = 0.005;
+
+/// Warnings about the drift found at the visits, from [`usable_drift`] pairs: a correction
+/// larger than [`DRIFT_WARNING_M`], and a correction that changes sign between visits (a
+/// logger does not drift back and forth; the staff reading or the visit time may be wrong).
+pub fn drift_warnings(usable: &[(i64, f64)]) -> Vec<String> {
+    let when = |t: i64| {
+        chrono::DateTime::from_timestamp_millis(t)
+            .map_or_else(|| t.to_string(), |d| d.format("%Y-%m-%d %H:%M UTC").to_string())
+    };
+    let mut out = Vec::new();
+    for &(t, d) in usable {
+        if d.abs() > DRIFT_WARNING_M {
+            out.push(format!(
+                "drift at the visit of {} is {:+.1} mm, more than {} mm: check the sensor's mounting and the staff reading",
+                when(t),
+                d * 1000.0,
+                DRIFT_WARNING_M * 1000.0
+            ));
+        }
+    }
+    for w in usable.windows(2) {
+        let ((t0, d0), (t1, d1)) = (w[0], w[1]);
+        if d0 * d1 < 0.0 {
+            out.push(format!(
+                "drift changes sign between the visits of {} ({:+.1} mm) and {} ({:+.1} mm): a logger does not drift back and forth; check both staff readings and their times",
+                when(t0),
+                d0 * 1000.0,
+                when(t1),
+                d1 * 1000.0
+            ));
+        }
+    }
+    out
 }
