@@ -98,7 +98,11 @@ pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
             failures += 1;
             "[FAIL]".to_string()
         };
-        let _ = writeln!(s, "{status} {:<18} {}", limit.id, limit.rule);
+        let rule = match units {
+            Units::Si => limit.rule.to_string(),
+            Units::Us => flumerate::report::with_feet(limit.rule),
+        };
+        let _ = writeln!(s, "{status} {:<18} {rule}", limit.id);
         let _ = writeln!(s, "       {:<18} source: {}", "", limit.source);
         if !broken.is_empty() {
             let _ = writeln!(

@@ -190,10 +190,9 @@ fn resolve_settings(a: &ConvertArgs, l: &LoggerSpec) -> anyhow::Result<Resolved>
         values.push(ColumnRef::parse(&tw));
     }
     let mut temperature_index = None;
+    // a level logger's temperature is read (its column must exist and is checked like any
+    // other) but not used: only a pressure logger needs the density of water
     if let Some(t) = pick(&a.temperature_column, &l.temperature_column) {
-        if pressure.is_none() {
-            bail!("a temperature column is only used with a pressure column (barometric compensation)");
-        }
         temperature_index = Some(values.len());
         values.push(ColumnRef::parse(&t));
     }
@@ -683,6 +682,11 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
             "timezone": s.zone_text,
             "daylight_saving_rule": "nonexistent local times: no time, flag missing; repeated local times: summer time until the clock steps back within the repeated hour, standard time after",
             "stage_unit": s.stage_unit,
+            "temperature_column": s.temperature_index.map(|_| if s.pressure_unit.is_some() {
+                "read: the density of water for the barometric compensation"
+            } else {
+                "read, not used: a level logger's stage needs no water density"
+            }),
             "separator": (s.read.separator as char).to_string(),
             "decimal_comma": s.read.decimal_comma,
             "missing_values": s.read.missing,
@@ -872,6 +876,9 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
         ));
     }
     r.push_str(&format!("gauge zero: head = stage − {} {}\n", s.zero, s.stage_unit));
+    if s.temperature_index.is_some() && s.pressure_unit.is_none() {
+        r.push_str("temperature column: read, not used (a level logger's stage needs no water density)\n");
+    }
     if counts.no_baro > 0 {
         r.push_str(&format!(
             "rows without barometric pressure within reach (flag missing): {}\n",

@@ -227,7 +227,13 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
         figures: 4,
         limits: flumerate::rating::limits::LIMITS
             .iter()
-            .map(|l| (l.id.to_string(), format!("{}: {} ({})", l.id, l.rule, l.source)))
+            .map(|l| {
+                let rule = match units {
+                    Units::Si => l.rule.to_string(),
+                    Units::Us => flumerate::report::with_feet(l.rule),
+                };
+                (l.id.to_string(), format!("{}: {rule} ({})", l.id, l.source))
+            })
             .collect(),
     };
     if a.output.extension().and_then(|e| e.to_str()) != Some("html") {

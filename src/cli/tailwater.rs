@@ -56,8 +56,13 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
     let method = match exit.fixed_modular_limit {
         Some(ml) => format!("{ml} as given in [exit] modular_limit"),
         None => format!(
-            "energy balance over the exit (Bos & Reinink 1981): expansion 1:{} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
-            station.exit.expansion, exit.loss_coefficient
+            "energy balance over the exit (Bos & Reinink 1981): {} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
+            if station.exit.expansion > 0.0 {
+                format!("a 1:{} expansion", station.exit.expansion)
+            } else {
+                "an abrupt exit".to_string()
+            },
+            exit.loss_coefficient
         ),
     };
     let report = TailwaterReport {

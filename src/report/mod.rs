@@ -34,6 +34,43 @@ pub fn as_written(v: f64) -> f64 {
     (v * scale).round() / scale + 0.0
 }
 
+/// `text` with every length in metres or millimetres ("0.06 m", "0.1 mm") followed by its value
+/// in feet, for US-unit outputs of rules that the standards state in SI.
+pub fn with_feet(text: &str) -> String {
+    let mut out = String::with_capacity(text.len() + 32);
+    let words: Vec<&str> = text.split(' ').collect();
+    for (i, w) in words.iter().enumerate() {
+        if i > 0 {
+            out.push(' ');
+        }
+        out.push_str(w);
+        let next = words.get(i + 1).copied().unwrap_or("");
+        let unit = next.trim_end_matches([',', ';', ')', '.', ':']);
+        let per_m = match unit {
+            "m" => 1.0,
+            "mm" => 0.001,
+            _ => continue,
+        };
+        if let Ok(v) = w.trim_start_matches('(').parse::<f64>() {
+            let ft = v * per_m / 0.3048;
+            out.push(' ');
+            out.push_str(next);
+            out.push_str(&format!(" ({} ft)", sig(ft, 2)));
+            // the unit word is written here already
+            return with_feet_rest(out, &words[i + 2..]);
+        }
+    }
+    out
+}
+
+fn with_feet_rest(mut out: String, rest: &[&str]) -> String {
+    if !rest.is_empty() {
+        out.push(' ');
+        out.push_str(&with_feet(&rest.join(" ")));
+    }
+    out
+}
+
 /// Wraps `text` at `width` columns (on spaces).
 pub fn wrap(text: &str, width: usize) -> String {
     let mut out = String::new();

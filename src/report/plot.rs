@@ -127,6 +127,8 @@ where
     c.configure_mesh()
         .x_desc(chart.x_label.as_str())
         .y_desc(chart.y_label.as_str())
+        .x_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick(*v))
         .label_style(("sans-serif", px(18.0)))
         .axis_desc_style(("sans-serif", px(20.0)))
         .draw()
@@ -167,6 +169,16 @@ where
         .map_err(err)?;
     root.present().map_err(err)?;
     Ok(())
+}
+
+/// An axis label: the value to six decimals at most, trailing zeros dropped, and never "-0".
+fn tick(v: f64) -> String {
+    let r = (v * 1e6).round() / 1e6;
+    if r == 0.0 {
+        "0".into()
+    } else {
+        format!("{r}")
+    }
 }
 
 /// Draws an XY chart as PNG or SVG bytes at the standard size.
@@ -364,6 +376,7 @@ where
     c.configure_mesh()
         .x_desc(format!("time ({clock})"))
         .y_desc("discharge Q (m³/s)")
+        .y_label_formatter(&|v| tick(*v))
         .label_style(("sans-serif", 18))
         .axis_desc_style(("sans-serif", 20))
         .x_label_formatter(&|t| t.format("%Y-%m-%d").to_string())

@@ -314,7 +314,7 @@ impl<'a> RatingReport<'a> {
         let inputs: Vec<Value> = INPUT_NAMES
             .iter()
             .zip(u.inputs.all())
-            .map(|(name, i)| json!({ "input": name, "stated": i.stated, "standard": i.standard, "source": i.source }))
+            .map(|(name, i)| json!({ "input": name, "stated": i.stated_in(self.units), "standard": i.standard, "source": i.source }))
             .collect();
         json!({
             "u95_pct": "GUM first order (JCGM 100), sensitivities by central differences of the whole rating, k = 2, one reading",
@@ -340,7 +340,11 @@ impl<'a> RatingReport<'a> {
             "random, one head reading",
         ];
         for ((name, i), kind) in INPUT_NAMES.iter().zip(u.inputs.all()).zip(kinds) {
-            lines.push(format!("  {name:<12} {:<34} {kind}; {}", i.stated, i.source));
+            lines.push(format!(
+                "  {name:<12} {:<34} {kind}; {}",
+                i.stated_in(self.units),
+                i.source
+            ));
         }
         if let Some((_, draws, seed)) = &u.monte_carlo {
             lines.push(format!(

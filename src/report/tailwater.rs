@@ -91,6 +91,13 @@ impl TailwaterReport<'_> {
 
     /// The verdict in one sentence, in output units.
     pub fn verdict_line(&self) -> String {
+        match self.units {
+            Units::Si => self.verdict_words(),
+            Units::Us => super::with_feet(&self.verdict_words()),
+        }
+    }
+
+    fn verdict_words(&self) -> String {
         let (lu, qu) = self.units.symbols();
         let top = self.top_m3s();
         match &self.check.verdict {

@@ -136,7 +136,7 @@ pub enum ReadError {
         source: std::io::Error,
     },
     /// A column asked for is not there.
-    #[error("{path}: no column {column}; the header has {available}\n  fix: name the column as in the header (or by 1-based position) with the matching [logger] key or flag")]
+    #[error("{path}: no column {column}; {header_at}, which has {available}\n  fix: name the column as in the header (or by 1-based position) with the matching [logger] key or flag; if that line is not the header, set the lines to skip before it (--skip-lines or [logger] skip_lines)")]
     NoColumn {
         /// File.
         path: String,
@@ -144,6 +144,8 @@ pub enum ReadError {
         column: String,
         /// The columns found.
         available: String,
+        /// Which line was read as the header, after how many skipped.
+        header_at: String,
     },
     /// A decimal comma with a comma separator and unquoted fields.
     #[error("{path}: numbers with a decimal comma cannot be told apart from fields when the separator is a comma too (\"12,5\" would be two fields)\n  fix: give the separator the file uses (--separator \";\" or [logger] separator), or export the file with quoted fields or a decimal point")]
@@ -237,7 +239,7 @@ pub fn unquote(field: &[u8]) -> std::borrow::Cow<'_, [u8]> {
     }
 }
 
-fn resolve(col: &ColumnRef, header: &[String], path: &str) -> Result<usize, ReadError> {
+fn resolve(col: &ColumnRef, header: &[String], path: &str, s: &ReadSettings) -> Result<usize, ReadError> {
     let found = match col {
         ColumnRef::Name(n) => header.iter().position(|h| h == n),
         ColumnRef::Position(p) => (*p <= header.len()).then(|| p - 1),
@@ -245,6 +247,19 @@ fn resolve(col: &ColumnRef, header: &[String], path: &str) -> Result<usize, Read
     found.ok_or_else(|| ReadError::NoColumn {
         path: path.to_string(),
         column: col.to_string(),
+        header_at: if s.has_header {
+            format!(
+                "line {} was read as the header (after skipping {} line(s))",
+                s.skip_lines + 1,
+                s.skip_lines
+            )
+        } else {
+            format!(
+                "without a header, line {} (after skipping {} line(s)) sets the columns",
+                s.skip_lines + 1,
+                s.skip_lines
+            )
+        },
         available: header
             .iter()
             .enumerate()
@@ -587,11 +602,11 @@ fn bare_carriage_return(bytes: &[u8]) -> Option<usize> {
 }
 
 fn make_layout(header: &[String], s: &ReadSettings, p: &str, quoted: bool) -> Result<Layout, ReadError> {
-    let time_idx = resolve(&s.time, header, p)?;
+    let time_idx = resolve(&s.time, header, p, s)?;
     let value_idx: Vec<usize> = s
         .values
         .iter()
-        .map(|c| resolve(c, header, p))
+        .map(|c| resolve(c, header, p, s))
         .collect::<Result<_, _>>()?;
     let mut projection: Vec<usize> = std::iter::once(time_idx).chain(value_idx.iter().copied()).collect();
     projection.sort_unstable();

@@ -20,12 +20,25 @@ pub struct Input {
     pub stated: String,
     /// Where the value comes from: the station file, or a named default.
     pub source: String,
+    /// The value as given (display unit).
+    value: f64,
+    /// The display unit: "%" or "mm".
+    unit: &'static str,
+    /// The coverage factor it was given at (normal inputs).
+    k: f64,
 }
 
 impl Input {
     /// Builds an input from the file's value (or a default) in display units; `scale` converts
     /// the display unit to the internal one (0.01 for %, 0.001 for mm).
-    fn new(value: f64, unit: &str, scale: f64, distribution: InputDistribution, k: f64, source: String) -> Self {
+    fn new(
+        value: f64,
+        unit: &'static str,
+        scale: f64,
+        distribution: InputDistribution,
+        k: f64,
+        source: String,
+    ) -> Self {
         let (standard, stated) = match distribution {
             InputDistribution::Normal => (value * scale / k, format!("±{value} {unit} (k = {k}, normal)")),
             InputDistribution::Rectangular => (
@@ -38,6 +51,22 @@ impl Input {
             distribution,
             stated,
             source,
+            value,
+            unit,
+            k,
+        }
+    }
+
+    /// The value as the user would say it, in the output's units: a length input in US units
+    /// reads "±0.0066 ft (2 mm, k = 2, normal)".
+    pub fn stated_in(&self, units: crate::units::Units) -> String {
+        if self.unit != "mm" || matches!(units, crate::units::Units::Si) {
+            return self.stated.clone();
+        }
+        let ft = crate::report::sig(units.length_from_si(self.value * 0.001), 2);
+        match self.distribution {
+            InputDistribution::Normal => format!("±{ft} ft ({} mm, k = {}, normal)", self.value, self.k),
+            InputDistribution::Rectangular => format!("±{ft} ft ({} mm, rectangular half-width)", self.value),
         }
     }
 

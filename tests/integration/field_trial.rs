@@ -429,3 +429,218 @@ fn range_is_optional_and_centimetres_are_a_unit() {
     assert!((rows[0]["head_m"].as_f64().expect("h") - 0.07).abs() < 1e-12);
     assert!((rows[rows.len() - 1]["head_m"].as_f64().expect("h") - 0.7).abs() < 1e-12);
 }
+
+fn data(name: &str) -> std::path::PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data/convert")
+        .join(name)
+}
+
+/// Runs convert with `args` after the logger and station; returns (exit code, report, output).
+fn convert(logger: &Path, station: &Path, dir: &Path, args: &[&str]) -> (Option<i32>, String, String) {
+    let out = dir.join("o.csv");
+    let o = flumerate()
+        .arg("convert")
+        .arg(logger)
+        .arg("--station")
+        .arg(station)
+        .arg("-o")
+        .arg(&out)
+        .args(args)
+        .output()
+        .expect("run");
+    (
+        o.status.code(),
+        String::from_utf8_lossy(&o.stdout).to_string(),
+        String::from_utf8_lossy(&o.stderr).to_string(),
+    )
+}
+
+/// Visits and barometric files take ISO 8601 times besides the logger's formats, and an error
+/// there says how to fix it; barometric values reach the ends of the record within 3 h.
+#[test]
+fn side_files_take_iso_times_and_reach_the_ends() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    // the visits of drift-visits.csv (Europe/Berlin, summer time: +02:00) written with offsets
+    let visits = dir.path().join("visits.csv");
+    std::fs::write(
+        &visits,
+        "time,head_mm\n2026-05-31T22:00:00Z,300\n2026-06-01T12:00:00+02:00,310\n",
+    )
+    .expect("write");
+    let (code, plain, _) = convert(
+        &data("drift.csv"),
+        &data("station.toml"),
+        dir.path(),
+        &["--visits", "tests/data/convert/drift-visits.csv"],
+    );
+    assert_eq!(code, Some(0));
+    let (code, iso, _) = convert(
+        &data("drift.csv"),
+        &data("station.toml"),
+        dir.path(),
+        &["--visits", visits.to_str().expect("utf-8")],
+    );
+    assert_eq!(code, Some(0));
+    let drift = |r: &str| {
+        r.lines()
+            .filter(|l| l.starts_with("drift at visit"))
+            .map(str::to_string)
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(drift(&plain), drift(&iso));
+    assert_eq!(drift(&iso).len(), 2);
+    std::fs::write(&visits, "time,head_mm\n01/06/2026 noon,300\n").expect("write");
+    let (code, _, err) = convert(
+        &data("drift.csv"),
+        &data("station.toml"),
+        dir.path(),
+        &["--visits", visits.to_str().expect("utf-8")],
+    );
+    assert_eq!(code, Some(2));
+    assert!(
+        err.contains("visits.csv:2") && err.contains("fix: write times as 2026-10-12T10:00"),
+        "{err}"
+    );
+    // a logger reading 1 h before the first barometric reading still gets it (held within 3 h)
+    let logger = dir.path().join("p.csv");
+    std::fs::write(
+        &logger,
+        "time,p_kpa,temp_c\n2026-05-31 22:45,110.0,10\n2026-05-31 23:00,110.0,10\n2026-05-31 23:15,110.0,10\n2026-05-31 23:30,110.0,10\n2026-06-01 00:00,110.0,10\n2026-06-01 05:00,110.0,10\n2026-06-01 07:00,110.0,10\n",
+    )
+    .expect("write");
+    let (code, report, err) = convert(
+        &logger,
+        &data("station-pressure.toml"),
+        dir.path(),
+        &["--baro", "tests/data/convert/baro.csv"],
+    );
+    assert_eq!(code, Some(0), "{err}");
+    // baro.csv runs 00:00 to 03:00: 22:45 and 05:00 are within 3 h of its ends, 07:00 is not
+    assert!(
+        report.contains("rows without barometric pressure within reach (flag missing): 1"),
+        "{report}"
+    );
+}
+
+/// A drift above 5 mm, or one changing sign between visits, is warned about on the console and
+/// in the provenance (common practice, no source).
+#[test]
+fn large_or_changing_drift_is_warned_about() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let visits = dir.path().join("visits.csv");
+    // logger head 0.300 m (stage 0.400 − zero 0.100): staff 0.308 (+8 mm), then 0.297 (−3 mm)
+    std::fs::write(&visits, "time,head_m\n2026-06-01 00:00,0.308\n2026-06-01 12:00,0.297\n").expect("write");
+    let (code, report, _) = convert(
+        &data("drift.csv"),
+        &data("station.toml"),
+        dir.path(),
+        &["--visits", visits.to_str().expect("utf-8")],
+    );
+    assert_eq!(code, Some(0));
+    assert!(
+        report.contains("WARNING: drift at the visit of") && report.contains("+8.0 mm, more than 5 mm"),
+        "{report}"
+    );
+    assert!(
+        report.contains("WARNING: drift changes sign between the visits"),
+        "{report}"
+    );
+    let prov: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("o.csv.provenance.json")).expect("prov")).expect("json");
+    assert_eq!(
+        prov["corrections"]["drift"]["warnings"]
+            .as_array()
+            .expect("warnings")
+            .len(),
+        2
+    );
+}
+
+/// `--submerged-estimate` says, per reason, how many drowned rows got no estimate.
+#[test]
+fn rows_without_an_estimate_are_counted_per_reason() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let (_, report, _) = convert(
+        &data("tailwater.csv"),
+        &data("station.toml"),
+        dir.path(),
+        &[
+            "--tailwater-column",
+            "tw",
+            "--tailwater-zero",
+            "0.1",
+            "--submerged-estimate",
+        ],
+    );
+    assert!(
+        report.contains("1 because the structure is a flume (Villemonte's relation is for weirs), 0 drowned beyond 0.90 (no correction is practical), 0 without --submerged-estimate"),
+        "{report}"
+    );
+}
+
+/// Smaller faults of the trial: an abrupt exit says "abrupt"; US-unit outputs show the budget's
+/// lengths in feet; --skip-lines errors name the line read as the header; a level logger's
+/// temperature column is accepted; plot ticks never read "-0".
+#[test]
+fn smaller_faults_of_the_trial() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let abrupt = std::fs::read_to_string(CANAL)
+        .expect("read")
+        .replace("expansion = 6", "expansion = 0");
+    let st = station_file(dir.path(), "abrupt.toml", &abrupt);
+    let out = flumerate().arg("tailwater").arg(&st).output().expect("run");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("an abrupt exit") && !text.contains("1:0"), "{text}");
+    let out = flumerate()
+        .args(["rate", "ratings/alder-brook-weir.toml", "--units", "us", "--budget"])
+        .output()
+        .expect("run");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("±0.0066 ft (2 mm, k = 2, normal)"), "{text}");
+    let (code, _, err) = convert(
+        Path::new("examples/ridgeway-logger.csv"),
+        Path::new(CANAL),
+        dir.path(),
+        &["--baro", "examples/ridgeway-baro.csv", "--skip-lines", "0"],
+    );
+    assert_eq!(code, Some(2));
+    assert!(
+        err.contains("line 1 was read as the header (after skipping 0 line(s))"),
+        "{err}"
+    );
+    let logger = dir.path().join("t.csv");
+    std::fs::write(
+        &logger,
+        "time,stage,temp_c\n2026-05-01 00:00,0.40,11.2\n2026-05-01 00:15,0.41,11.0\n",
+    )
+    .expect("write");
+    let (code, report, _) = convert(
+        &logger,
+        &data("station.toml"),
+        dir.path(),
+        &["--temperature-column", "temp_c"],
+    );
+    assert_eq!(code, Some(0));
+    assert!(report.contains("temperature column: read, not used"));
+    let svg = dir.path().join("tw.svg");
+    flumerate()
+        .arg("tailwater")
+        .arg(CANAL)
+        .arg("--plot")
+        .arg(&svg)
+        .assert()
+        .code(1);
+    let text = std::fs::read_to_string(&svg).expect("svg");
+    let labels: Vec<String> = text
+        .split("<text")
+        .skip(1)
+        .filter_map(|t| t.split_once('>').and_then(|(_, rest)| rest.split_once("</text>")))
+        .map(|(inner, _)| inner.trim().to_string())
+        .collect();
+    assert!(
+        !labels.iter().any(|l| l == "-0" || l == "-0.0"),
+        "a tick reads -0: {labels:?}"
+    );
+    assert!(labels.iter().any(|l| l == "0"), "the zero tick is there: {labels:?}");
+}
