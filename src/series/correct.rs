@@ -164,38 +164,6 @@ pub fn metres_per(unit: &str) -> Option<f64> {
     }
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn kell_density_matches_tabulated_values() {
-        // CRC Handbook of Chemistry and Physics, density of water (from memory):
-        // 4 °C 999.972, 10 °C 999.702, 20 °C 998.207, 30 °C 995.650 kg/m³
-        for (t, rho) in [(4.0, 999.972), (10.0, 999.702), (20.0, 998.207), (30.0, 995.650)] {
-            assert!(
-                (water_density_kg_m3(t) - rho).abs() < 0.01,
-                "{t} °C: {}",
-                water_density_kg_m3(t)
-            );
-        }
-    }
-
-    #[test]
-    fn interpolation_respects_gaps_and_ends() {
-        let s = TimeSeries::new(vec![(0, 1.0), (100, 2.0), (1000, 3.0), (50, f64::NAN)]);
-        assert_eq!(s.len(), 3);
-        assert_eq!(s.at(50, 200), Some(1.5));
-        assert_eq!(s.at(100, 0), Some(2.0));
-        assert_eq!(s.at(500, 200), None, "gap longer than allowed");
-        // beyond the ends the end value holds within the reach, and only within it
-        assert_eq!(s.at(-1, 200), Some(1.0));
-        assert_eq!(s.at(1001, 200), Some(3.0));
-        assert_eq!(s.at(-201, 200), None);
-        assert_eq!(s.at(1201, 200), None);
-    }
-}
-
 /// A drift correction above this (m) is warned about: a pressure sensor that has moved by more
 /// than 5 mm between visits deserves a look at its mounting (common practice, no source).
 pub const DRIFT_WARNING_M: f64 = 0.005;
@@ -232,4 +200,36 @@ pub fn drift_warnings(usable: &[(i64, f64)]) -> Vec<String> {
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn kell_density_matches_tabulated_values() {
+        // CRC Handbook of Chemistry and Physics, density of water (from memory):
+        // 4 °C 999.972, 10 °C 999.702, 20 °C 998.207, 30 °C 995.650 kg/m³
+        for (t, rho) in [(4.0, 999.972), (10.0, 999.702), (20.0, 998.207), (30.0, 995.650)] {
+            assert!(
+                (water_density_kg_m3(t) - rho).abs() < 0.01,
+                "{t} °C: {}",
+                water_density_kg_m3(t)
+            );
+        }
+    }
+
+    #[test]
+    fn interpolation_respects_gaps_and_ends() {
+        let s = TimeSeries::new(vec![(0, 1.0), (100, 2.0), (1000, 3.0), (50, f64::NAN)]);
+        assert_eq!(s.len(), 3);
+        assert_eq!(s.at(50, 200), Some(1.5));
+        assert_eq!(s.at(100, 0), Some(2.0));
+        assert_eq!(s.at(500, 200), None, "gap longer than allowed");
+        // beyond the ends the end value holds within the reach, and only within it
+        assert_eq!(s.at(-1, 200), Some(1.0));
+        assert_eq!(s.at(1001, 200), Some(3.0));
+        assert_eq!(s.at(-201, 200), None);
+        assert_eq!(s.at(1201, 200), None);
+    }
 }
