@@ -57,7 +57,7 @@ python3 - "$work/out.parquet" "$rows" <<'PY'
 import sys
 import pyarrow.parquet as pq
 t = pq.read_table(sys.argv[1])
-want = ["time", "stage_m", "head_m", "discharge_m3s", "discharge_low_m3s", "discharge_high_m3s", "flag", "line"]
+want = ["time", "stage_m", "head_m", "discharge_m3s", "discharge_low_m3s", "discharge_high_m3s", "flag", "line", "counted_line"]
 assert t.column_names == want, t.column_names
 assert t.num_rows == int(sys.argv[2]), t.num_rows
 print(f"pyarrow reads the Parquet output back: {t.num_rows} rows, columns as in design.md")
