@@ -73,7 +73,7 @@ pub enum FileError {
         path: String,
     },
     /// An I/O failure.
-    #[error("{what} {path}: {source}")]
+    #[error("{what} {path}")]
     Io {
         /// What was being done.
         what: String,

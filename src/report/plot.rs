@@ -238,6 +238,11 @@ pub struct HydroBuckets {
 }
 
 impl HydroBuckets {
+    /// The first instant the buckets cover (UTC ms).
+    pub fn start_ms(&self) -> i64 {
+        self.t0_ms
+    }
+
     /// Buckets covering `[t0_ms, t1_ms]`.
     pub fn new(t0_ms: i64, t1_ms: i64, buckets: usize) -> Self {
         let width_ms = ((t1_ms - t0_ms).max(1) as f64) / buckets as f64;

@@ -123,12 +123,51 @@ pub struct RawSeries {
     pub sha256: String,
 }
 
+impl RawSeries {
+    /// Readings held in memory, as if read from a file with no preamble: line `k + 2` is
+    /// reading `k` (line 1 the header). `times` are parsed with `formats` (a time none reads has
+    /// none); `values` are the value columns, stage or pressure first (NaN for no value).
+    pub fn from_readings(times: &[&str], formats: &[TimeFormat], values: Vec<Vec<f64>>) -> Self {
+        let n = times.len();
+        let mut unreadable = Vec::new();
+        let wall_ms = times
+            .iter()
+            .enumerate()
+            .map(|(k, t)| {
+                super::time::parse_any(formats, t).unwrap_or_else(|| {
+                    unreadable.push((k as u32 + 2, format!("time \"{t}\" matches no format")));
+                    NO_TIME
+                })
+            })
+            .collect();
+        let columns = values.len();
+        Self {
+            header: (1..=columns + 1).map(|i| format!("column {i}")).collect(),
+            lines: (2..n as u32 + 2).collect(),
+            wall_ms,
+            values: values
+                .into_iter()
+                .map(|mut v| {
+                    v.resize(n, f64::NAN);
+                    v
+                })
+                .collect(),
+            blank_lines: Vec::new(),
+            unreadable,
+            empty_fields: vec![0; columns],
+            sentinel_fields: vec![0; columns],
+            empty_times: 0,
+            sha256: String::new(),
+        }
+    }
+}
+
 /// The file could not be read at all.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum ReadError {
     /// I/O.
-    #[error("cannot read {path}: {source}")]
+    #[error("cannot read logger file {path}")]
     Io {
         /// File.
         path: String,

@@ -283,9 +283,9 @@ pub struct Station {
 impl Station {
     /// Reads and checks a station file.
     pub fn load(path: &Path) -> Result<Self, LoadError> {
-        let bytes = std::fs::read(path).map_err(|source| LoadError::Read {
+        let bytes = std::fs::read(path).map_err(|cause| LoadError::Read {
             path: path.display().to_string(),
-            source,
+            cause,
         })?;
         let text = std::str::from_utf8(&bytes).map_err(|e| {
             let at = e.valid_up_to();
@@ -326,14 +326,12 @@ impl Station {
 #[non_exhaustive]
 pub enum LoadError {
     /// The file could not be read.
-    #[error(
-        "cannot read station file {path}: {source}\n  fix: check the path; station files usually live in ratings/"
-    )]
+    #[error("cannot read station file {path}: {cause}\n  fix: check the path; station files usually live in ratings/")]
     Read {
         /// The path.
         path: String,
-        /// The I/O error.
-        source: std::io::Error,
+        /// The I/O error (shown in the message, not chained).
+        cause: std::io::Error,
     },
     /// The file is not UTF-8 text.
     #[error("{path}:{line}: station files are UTF-8 text, but byte {offset} (0x{byte:02x}) is not UTF-8: the file was saved in another encoding (Latin-1 or Windows-1252?)\n  fix: save the file as UTF-8 (in most editors: Save as… → encoding UTF-8), or convert it: iconv -f WINDOWS-1252 -t UTF-8 {path} > fixed.toml")]

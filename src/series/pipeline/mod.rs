@@ -1,0 +1,486 @@
+//! A logger conversion as a library call: read → times → rating → corrections → discharge, band
+//! and flag per row → summaries → outputs, returning a report.
+//!
+//! ```no_run
+//! use flumerate::series::pipeline::{ConvertOptions, NoProgress, OutputPaths, Pipeline};
+//! use flumerate::series::settings::LoggerOverrides;
+//! use flumerate::station::Station;
+//!
+//! let station = Station::load("ratings/ridgeway-canal-flume.toml".as_ref())?;
+//! let options = ConvertOptions::new(&station, &LoggerOverrides::default(), None, Some("baro.csv".into()))?;
+//! let pipeline = Pipeline::new(&station, options)?;
+//! let report = pipeline.run("logger.csv".as_ref(), &OutputPaths::beside("series.parquet".into()), &NoProgress)?;
+//! println!("{}", report.text);
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+//!
+//! Each stage is a function of its own in [`stages`]; [`Pipeline::convert_readings`] runs the same
+//! stages on readings held in memory, without files.
+
+pub mod report;
+pub mod stages;
+
+use std::path::{Path, PathBuf};
+
+use super::convert::{Chunk, Conversion, Counts, Flag, PeriodRow};
+use super::output::{write_summary, SeriesWriter, TableFile};
+use super::read::{read_logger, RawSeries, ReadError};
+use super::settings::{LoggerOverrides, LoggerSettings, SettingsError};
+use super::side::SideError;
+use super::timeline::TimelineError;
+use crate::files::{FileError, OutputSet};
+use crate::rating::{RatingError, RatingModel};
+use crate::report::plot::{hydrograph, ImageFormat};
+use crate::station::Station;
+use report::{Facts, Paths};
+use stages::{Converted, Corrections, Times};
+
+/// Why a conversion stopped.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum PipelineError {
+    /// The settings cannot be used.
+    #[error(transparent)]
+    Settings(#[from] SettingsError),
+    /// The logger file cannot be read.
+    #[error(transparent)]
+    Read(#[from] ReadError),
+    /// The rows' times give nothing to convert.
+    #[error("{path}: cannot convert")]
+    Times {
+        /// The logger file.
+        path: String,
+        /// Why.
+        source: TimelineError,
+    },
+    /// A side file cannot be read.
+    #[error(transparent)]
+    Side(#[from] SideError),
+    /// The rating cannot be computed.
+    #[error(transparent)]
+    Rating(#[from] RatingError),
+    /// An output cannot be written.
+    #[error(transparent)]
+    Files(#[from] FileError),
+    /// An output cannot be encoded.
+    #[error("writing {path}: {message}")]
+    Output {
+        /// The output.
+        path: String,
+        /// What went wrong.
+        message: String,
+    },
+}
+
+/// What the conversion does besides reading the logger's settings.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ConvertOptions {
+    /// How the export reads.
+    pub settings: LoggerSettings,
+    /// Write rows sorted by time (then line) instead of in file order.
+    pub sort: bool,
+    /// Replace a drowned row's discharge by the drowned-flow estimate where it applies.
+    pub submerged_estimate: bool,
+    /// Field visits (staff-gauge heads) for the drift correction.
+    pub visits: Option<PathBuf>,
+    /// Barometric series for an absolute-pressure logger.
+    pub baro: Option<PathBuf>,
+}
+
+impl ConvertOptions {
+    /// The station's `[logger]` with `overrides` over it; no sorting, no drowned-flow estimate.
+    pub fn new(
+        station: &Station,
+        overrides: &LoggerOverrides,
+        visits: Option<PathBuf>,
+        baro: Option<PathBuf>,
+    ) -> Result<Self, SettingsError> {
+        let spec = station.logger.clone().unwrap_or_default();
+        Ok(Self {
+            settings: LoggerSettings::resolve(&spec, overrides, baro.is_some())?,
+            sort: false,
+            submerged_estimate: false,
+            visits,
+            baro,
+        })
+    }
+}
+
+/// Where a conversion writes: the series (`.csv` or `.parquet`), the optional summaries and
+/// hydrograph, and the provenance record.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutputPaths {
+    /// The converted series.
+    pub series: PathBuf,
+    /// Daily summary (`.csv` or `.parquet`).
+    pub daily: Option<PathBuf>,
+    /// Monthly summary.
+    pub monthly: Option<PathBuf>,
+    /// Hydrograph (`.png` or `.svg`).
+    pub plot: Option<PathBuf>,
+    /// Provenance record.
+    pub provenance: PathBuf,
+}
+
+impl OutputPaths {
+    /// The series alone, with its provenance beside it (`SERIES.provenance.json`).
+    pub fn beside(series: PathBuf) -> Self {
+        Self {
+            provenance: PathBuf::from(format!("{}.provenance.json", series.display())),
+            series,
+            daily: None,
+            monthly: None,
+            plot: None,
+        }
+    }
+}
+
+/// Progress of a long conversion (the command line draws a bar; a library user may ignore it).
+pub trait Progress: Sync {
+    /// Bytes of the logger file read so far, of `total`.
+    fn reading(&self, _done: u64, _total: u64) {}
+    /// Rows converted so far, of `total`.
+    fn converting(&self, _done: u64, _total: u64) {}
+    /// The work is done.
+    fn finished(&self) {}
+}
+
+/// No progress shown.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct NoProgress;
+
+impl Progress for NoProgress {}
+
+/// What a conversion gives back.
+#[derive(Debug, Clone)]
+pub struct ConversionReport {
+    /// The report for the user.
+    pub text: String,
+    /// The provenance record (also written to its file).
+    pub provenance: serde_json::Value,
+    /// Counts per flag and per case.
+    pub counts: Counts,
+    /// Rows flagged other than `ok` or `dry`.
+    pub flagged_rows: usize,
+    /// Daily summary rows.
+    pub daily: Vec<PeriodRow>,
+    /// Monthly summary rows.
+    pub monthly: Vec<PeriodRow>,
+}
+
+/// A conversion held in memory ([`Pipeline::convert_readings`]).
+#[derive(Debug, Clone)]
+pub struct InMemory {
+    /// Every row, converted, in input order.
+    pub rows: Chunk,
+    /// Counts per flag and per case.
+    pub counts: Counts,
+    /// Daily summary rows.
+    pub daily: Vec<PeriodRow>,
+    /// Monthly summary rows.
+    pub monthly: Vec<PeriodRow>,
+}
+
+/// A conversion ready to run for one station.
+#[derive(Debug)]
+pub struct Pipeline<'a> {
+    station: &'a Station,
+    model: RatingModel,
+    options: ConvertOptions,
+}
+
+/// Phase times on standard error when FLUMERATE_TIMING is set (for benchmarking; DEVELOPERS.md).
+struct Timer(Option<std::time::Instant>);
+
+impl Timer {
+    fn new() -> Self {
+        Self(std::env::var_os("FLUMERATE_TIMING").map(|_| std::time::Instant::now()))
+    }
+    fn mark(&mut self, what: &str) {
+        if let Some(t) = self.0 {
+            eprintln!("timing: {what:<24} {:>8.3} s", t.elapsed().as_secs_f64());
+            self.0 = Some(std::time::Instant::now());
+        }
+    }
+}
+
+impl<'a> Pipeline<'a> {
+    /// A conversion for `station` with `options`.
+    pub fn new(station: &'a Station, options: ConvertOptions) -> Result<Self, RatingError> {
+        Ok(Self {
+            model: RatingModel::new(station.structure.clone())?,
+            station,
+            options,
+        })
+    }
+
+    /// The options.
+    pub fn options(&self) -> &ConvertOptions {
+        &self.options
+    }
+
+    /// The conversion set-up for rows whose times are `times` (stage 4, before any drift).
+    fn conversion<'s>(
+        &'s self,
+        rating: &'s stages::RatingStage,
+        times: &'s Times,
+        stage: super::convert::StageSource,
+    ) -> Conversion<'s> {
+        let s = &self.options.settings;
+        let m_per = s.metres_per_unit();
+        Conversion {
+            gum: &rating.gum,
+            table: &rating.table,
+            range: self.station.range,
+            stage,
+            zero_m: s.zero * m_per,
+            plausible: stages::plausible(s, self.station),
+            invalid_bands: rating.invalid_bands.clone(),
+            drift: Vec::new(),
+            tailwater_column: s
+                .tailwater_index
+                .map(|k| (k, m_per, s.tailwater_zero.unwrap_or(0.0) * m_per)),
+            tailwater: rating.tailwater.as_ref(),
+            submerged_estimate: self.options.submerged_estimate,
+            exponent: rating.exponent,
+            timeline: &times.timeline,
+            zone: s.zone,
+            gravity_m_s2: self.station.structure.gravity_m_s2,
+        }
+    }
+
+    /// Stage 4: the stage source and the drift correction, with what they found.
+    fn corrections<'s>(
+        &'s self,
+        rating: &'s stages::RatingStage,
+        times: &'s Times,
+        raw: &RawSeries,
+    ) -> Result<(Conversion<'s>, Corrections), PipelineError> {
+        let s = &self.options.settings;
+        let (stage, baro_sha256) = stages::stage_source(s, self.options.baro.as_deref(), times.timeline.interval_ms)?;
+        let mut conv = self.conversion(rating, times, stage);
+        let mut found = Corrections {
+            baro_sha256,
+            ..Default::default()
+        };
+        if let Some(visits) = &self.options.visits {
+            let (record, sha) = stages::drift(&conv, times, raw, visits, s)?;
+            found.drift_warnings = stages::apply_drift(&mut conv, &record);
+            found.drift_record = record;
+            found.visits_sha256 = Some(sha);
+        }
+        Ok((conv, found))
+    }
+
+    /// Runs the conversion of `logger` into `out`: every output is written to a temporary and
+    /// all are renamed into place together at the end ([`crate::files`]).
+    pub fn run(
+        &self,
+        logger: &Path,
+        out: &OutputPaths,
+        progress: &dyn Progress,
+    ) -> Result<ConversionReport, PipelineError> {
+        let mut timer = Timer::new();
+        let formats = check_formats(out)?;
+        let size = std::fs::metadata(logger).map_or(0, |m| m.len());
+        let mut raw = read_logger(logger, &self.options.settings.read, |n| progress.reading(n, size))?;
+        timer.mark("read");
+        let times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
+            path: logger.display().to_string(),
+            source,
+        })?;
+        timer.mark("times");
+        let rating = stages::rating(self.station, &self.model)?;
+        timer.mark("rating");
+        let (conv, corrections) = self.corrections(&rating, &times, &raw)?;
+        let mut outputs = OutputSet::new();
+        let mut converted = self.write_series(&conv, &times, &raw, &rating, out, formats.0, &mut outputs, progress)?;
+        timer.mark("convert and write");
+        let daily = converted.summaries.daily(&rating.inputs);
+        let monthly = converted.summaries.monthly(&rating.inputs);
+        for (p, key, rows) in [(&out.daily, "date", &daily), (&out.monthly, "month", &monthly)] {
+            if let Some(p) = p {
+                let format = TableFile::from_path(p).expect("checked");
+                write_summary(outputs.create(p)?, format, key, rows).map_err(|e| output_error(p, e))?;
+            }
+        }
+        if let (Some(p), Some(fmt)) = (&out.plot, formats.1) {
+            outputs.write(p, &self.plot(&converted, fmt).map_err(|e| output_error(p, e))?)?;
+        }
+        let paths = self.paths(logger, out);
+        let facts = Facts {
+            paths: &paths,
+            logger_bytes: size,
+            station: self.station,
+            settings: &self.options.settings,
+            sort: self.options.sort,
+            submerged_estimate: self.options.submerged_estimate,
+            raw: &raw,
+            times: &times,
+            rating: &rating,
+            conv: &conv,
+            corrections: &corrections,
+            converted: &converted,
+            total_volume: (daily.iter().map(|d| d.volume_m3).sum(), daily.len()),
+        };
+        let provenance = facts.provenance();
+        let mut bytes = serde_json::to_vec_pretty(&provenance).expect("JSON values serialise");
+        bytes.push(b'\n');
+        outputs.write(&out.provenance, &bytes)?;
+        outputs.commit()?;
+        timer.mark("summaries, plot, provenance");
+        progress.finished();
+        Ok(ConversionReport {
+            text: facts.text(),
+            provenance,
+            flagged_rows: flagged(&converted.counts),
+            counts: converted.counts.clone(),
+            daily,
+            monthly,
+        })
+    }
+
+    /// Stage 5 with its output: converts every row and streams the chunks to the series file,
+    /// encoded on a writer thread while the next chunk converts (a queue of one chunk keeps
+    /// memory flat).
+    #[allow(clippy::too_many_arguments)]
+    fn write_series(
+        &self,
+        conv: &Conversion,
+        times: &Times,
+        raw: &RawSeries,
+        rating: &stages::RatingStage,
+        out: &OutputPaths,
+        format: TableFile,
+        outputs: &mut OutputSet,
+        progress: &dyn Progress,
+    ) -> Result<Converted, PipelineError> {
+        let file = outputs.create(&out.series)?;
+        let zone = self.options.settings.zone.polars_name();
+        let writer = SeriesWriter::new(file, format, zone.as_deref()).map_err(|e| output_error(&out.series, e))?;
+        let (tx, rx) = std::sync::mpsc::sync_channel::<Chunk>(1);
+        let writing = std::thread::spawn(move || -> (SeriesWriter, polars::prelude::PolarsResult<()>) {
+            let mut writer = writer;
+            for chunk in rx {
+                if let Err(e) = writer.write(chunk) {
+                    return (writer, Err(e));
+                }
+            }
+            (writer, Ok(()))
+        });
+        let order = stages::write_order(times, raw, self.options.sort);
+        let total = raw.lines.len() as u64;
+        let converted = stages::convert_all(
+            conv,
+            times,
+            raw,
+            &rating.inputs,
+            order.as_deref(),
+            // a closed queue means the writer stopped on an error, reported below
+            |chunk| tx.send(chunk).is_ok(),
+            |done| progress.converting(done, total),
+        );
+        drop(tx);
+        let (writer, written) = writing.join().expect("the writer thread does not panic");
+        written.map_err(|e| output_error(&out.series, e))?;
+        writer.finish().map_err(|e| output_error(&out.series, e))?;
+        Ok(converted)
+    }
+
+    /// The hydrograph, its clock the logger's at the start of the record.
+    fn plot(&self, converted: &Converted, fmt: ImageFormat) -> Result<Vec<u8>, crate::report::plot::PlotError> {
+        let offset = self.options.settings.zone.offset_at_utc(converted.buckets.start_ms());
+        let clock = format!(
+            "UTC{}{:02}:{:02}",
+            if offset < 0 { '-' } else { '+' },
+            offset.abs() / 3600,
+            (offset.abs() % 3600) / 60
+        );
+        hydrograph(
+            &converted.buckets,
+            &format!("{}: discharge", self.station.name),
+            &clock,
+            offset,
+            fmt,
+        )
+    }
+
+    fn paths(&self, logger: &Path, out: &OutputPaths) -> Paths {
+        let shown = |p: &Path| p.display().to_string();
+        Paths {
+            logger: shown(logger),
+            station: self.station.source.clone(),
+            output: shown(&out.series),
+            provenance: shown(&out.provenance),
+            visits: self.options.visits.as_deref().map(shown),
+            baro: self.options.baro.as_deref().map(shown),
+        }
+    }
+
+    /// The same stages on readings held in memory, without files: `times` as the logger writes
+    /// them (in its formats and on its clock), `values` its value columns (stage or pressure
+    /// first). Every row comes back, converted, in input order.
+    pub fn convert_readings(&self, times_text: &[&str], values: Vec<Vec<f64>>) -> Result<InMemory, PipelineError> {
+        let mut raw = RawSeries::from_readings(times_text, &self.options.settings.read.formats, values);
+        let times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
+            path: "(readings in memory)".into(),
+            source,
+        })?;
+        let rating = stages::rating(self.station, &self.model)?;
+        let (conv, _) = self.corrections(&rating, &times, &raw)?;
+        let mut rows = Chunk::default();
+        let mut converted = stages::convert_all(
+            &conv,
+            &times,
+            &raw,
+            &rating.inputs,
+            None,
+            |chunk| {
+                rows.append(chunk);
+                true
+            },
+            |_| {},
+        );
+        Ok(InMemory {
+            rows,
+            counts: converted.counts.clone(),
+            daily: converted.summaries.daily(&rating.inputs),
+            monthly: converted.summaries.monthly(&rating.inputs),
+        })
+    }
+}
+
+/// Rows flagged other than `ok` or `dry`.
+fn flagged(counts: &Counts) -> usize {
+    Flag::ALL
+        .iter()
+        .zip(counts.per_flag)
+        .filter(|(f, _)| !f.counted())
+        .map(|(_, c)| c)
+        .sum()
+}
+
+fn output_error(path: &Path, e: impl std::fmt::Display) -> PipelineError {
+    PipelineError::Output {
+        path: path.display().to_string(),
+        message: e.to_string(),
+    }
+}
+
+/// The series' format and the plot's, checked before any work.
+fn check_formats(out: &OutputPaths) -> Result<(TableFile, Option<ImageFormat>), PipelineError> {
+    let bad = |p: &Path, what: &str| PipelineError::Output {
+        path: p.display().to_string(),
+        message: what.to_string(),
+    };
+    let series =
+        TableFile::from_path(&out.series).ok_or_else(|| bad(&out.series, "the series must end in .csv or .parquet"))?;
+    for p in [&out.daily, &out.monthly].into_iter().flatten() {
+        TableFile::from_path(p).ok_or_else(|| bad(p, "a summary must end in .csv or .parquet"))?;
+    }
+    let plot = match &out.plot {
+        Some(p) => Some(ImageFormat::from_path(p).ok_or_else(|| bad(p, "the plot must end in .png or .svg"))?),
+        None => None,
+    };
+    Ok((series, plot))
+}

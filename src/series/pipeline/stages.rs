@@ -1,0 +1,303 @@
+//! The stages of a conversion, each a function of its own: times, the rating, the corrections,
+//! and the conversion of the rows chunk by chunk.
+
+use super::super::convert::{Chunk, Conversion, Counts, Plausible, StageSource, Summaries};
+use super::super::correct::{drift_points, drift_warnings, pascals_per, usable_drift, DriftPoint, TimeSeries};
+use super::super::dense::DenseRating;
+use super::super::read::RawSeries;
+use super::super::settings::LoggerSettings;
+use super::super::side::{read_side_file, SideError};
+use super::super::time::{resolve_in_place, TimeNote, NO_TIME};
+use super::super::timeline::{Timeline, TimelineError};
+use crate::rating::limits::invalid_head_bands;
+use crate::rating::{RatingEquation, RatingError, RatingModel};
+use crate::report::plot::HydroBuckets;
+use crate::station::Station;
+use crate::tailwater::{Exit, Tailwater};
+use crate::uncertainty::{GumModel, Inputs};
+
+/// Rows per chunk converted and written at a time.
+pub const CHUNK_ROWS: usize = 1 << 18;
+
+/// The rows' times: instants, local days, notes and the time order.
+#[derive(Debug, Clone)]
+pub struct Times {
+    /// UTC ms per row ([`NO_TIME`] where none).
+    pub utc: Vec<i64>,
+    /// Local calendar day per row.
+    pub days: Vec<i32>,
+    /// Rows whose time needed a note.
+    pub notes: Vec<(usize, TimeNote)>,
+    /// The rows in time order.
+    pub timeline: Timeline,
+}
+
+/// Stage 2: the rows' wall-clock times to instants (daylight-saving rule of
+/// [`super::super::time`]) and the time order ([`Timeline`]). Takes the wall times out of `raw`.
+pub fn times(raw: &mut RawSeries, settings: &LoggerSettings) -> Result<Times, TimelineError> {
+    let mut utc = std::mem::take(&mut raw.wall_ms);
+    let (days, notes) = resolve_in_place(&settings.zone, &mut utc);
+    let timeline = Timeline::new(&utc, &raw.values, &raw.lines)?;
+    Ok(Times {
+        utc,
+        days,
+        notes,
+        timeline,
+    })
+}
+
+/// The rating as the conversion uses it.
+#[derive(Debug, Clone)]
+pub struct RatingStage {
+    /// The uncertainty inputs.
+    pub inputs: Inputs,
+    /// The model with its sensitivities.
+    pub gum: GumModel,
+    /// The exit, for the modular limit.
+    pub exit: Exit,
+    /// The tailwater channel, if any.
+    pub tailwater: Option<Tailwater>,
+    /// The dense table up to 1.5 × the range's top.
+    pub table: DenseRating,
+    /// The station's rating equation, as every output prints it.
+    pub equation: Option<RatingEquation>,
+    /// Its exponent, for the drowned-flow estimate (1.5, a rectangle's, without an equation).
+    pub exponent: f64,
+    /// Heads where the method breaks a limit of application.
+    pub invalid_bands: Vec<(f64, f64)>,
+}
+
+/// Stage 3: the rating tabulated densely with its uncertainty, the rating equation and the heads
+/// outside the limits of application.
+pub fn rating(station: &Station, model: &RatingModel) -> Result<RatingStage, RatingError> {
+    let inputs = Inputs::from_station(&station.uncertainty, &station.structure);
+    let gum = GumModel::new(model, inputs.clone())?;
+    let exit = Exit::from(&station.exit);
+    let tailwater = station
+        .tailwater
+        .clone()
+        .map(|t| Tailwater::new(t, station.structure.gravity_m_s2));
+    let r = station.range;
+    let table = DenseRating::new(&gum, &exit, tailwater.as_ref(), 1.5 * r.max_head_m, r.min_head_m)?;
+    let equation = RatingEquation::for_range(model, r.min_head_m, r.max_head_m);
+    let exponent = equation.as_ref().map_or(1.5, |e| e.fit.u);
+    Ok(RatingStage {
+        inputs,
+        gum,
+        exit,
+        tailwater,
+        table,
+        equation,
+        exponent,
+        invalid_bands: invalid_head_bands(model, r.max_head_m),
+    })
+}
+
+/// The corrections as found: the drift record, its warnings and the side files' hashes.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Corrections {
+    /// One entry per field visit.
+    pub drift_record: Vec<DriftPoint>,
+    /// Warnings about the drift.
+    pub drift_warnings: Vec<String>,
+    /// SHA-256 of the visits file.
+    pub visits_sha256: Option<String>,
+    /// SHA-256 of the barometric file.
+    pub baro_sha256: Option<String>,
+}
+
+/// Where the stage comes from: the logged stage, or pressure minus a barometric series read from
+/// `baro` (stage 4a). Returns the source and the barometric file's hash.
+pub fn stage_source(
+    settings: &LoggerSettings,
+    baro: Option<&std::path::Path>,
+    interval_ms: i64,
+) -> Result<(StageSource, Option<String>), SideError> {
+    let Some(unit) = &settings.pressure_unit else {
+        return Ok((
+            StageSource::Level {
+                metres_per_unit: settings.metres_per_unit(),
+            },
+            None,
+        ));
+    };
+    let path = baro.expect("a pressure logger's settings require a barometric file");
+    let side = read_side_file(path, "pressure", &settings.read.formats, &settings.zone)?;
+    let pa = pascals_per(unit).expect("checked when resolved");
+    let source = StageSource::Pressure {
+        pascals_per_unit: pa,
+        baro_pa: TimeSeries::new(side.points.into_iter().map(|(t, v)| (t, v * pa)).collect()),
+        // barometric pressure is interpolated across gaps (and held beyond its ends) up to 3 h,
+        // or three logging intervals for slower loggers
+        baro_max_gap_ms: (3 * 3_600_000).max(3 * interval_ms),
+        water_temperature_c: settings.water_temperature,
+        temperature_column: settings.temperature_index,
+    };
+    Ok((source, Some(side.sha256)))
+}
+
+/// The stages the logger can physically read, from its settings and the station's range.
+pub fn plausible(settings: &LoggerSettings, station: &Station) -> Plausible {
+    let m_per = settings.metres_per_unit();
+    let dry_m = settings.dry_reading.unwrap_or(0.0) * m_per;
+    let max_depth_m = settings.max_depth.map_or_else(
+        || Plausible::default_max_depth_m(settings.zero * m_per - dry_m, station.range.max_head_m),
+        |d| d * m_per,
+    );
+    Plausible::new(dry_m, max_depth_m)
+}
+
+/// Stage 4b: the drift from field visits: staff head minus the logger's head (before drift) at
+/// each visit, from the readings nearest in time within three intervals (at least an hour).
+pub fn drift(
+    conv: &Conversion,
+    times: &Times,
+    raw: &RawSeries,
+    visits: &std::path::Path,
+    settings: &LoggerSettings,
+) -> Result<(Vec<DriftPoint>, String), SideError> {
+    let side = read_side_file(visits, "head", &settings.read.formats, &settings.zone)?;
+    let unit = if side.unit.is_empty() { "m" } else { &side.unit };
+    let per = super::super::correct::metres_per(unit).ok_or_else(|| SideError {
+        path: visits.display().to_string(),
+        line: Some(1),
+        problem: format!("head unit \"{unit}\": name the column head_m, head_cm, head_mm or head_ft"),
+    })?;
+    let max_gap = (3 * times.timeline.interval_ms).max(3_600_000);
+    let mut near: Vec<(i64, f64)> = Vec::new();
+    for &(tv, _) in &side.points {
+        let mut before: Option<(i64, f64)> = None;
+        let mut after: Option<(i64, f64)> = None;
+        for (i, &t) in times.utc.iter().enumerate() {
+            if t == NO_TIME || (t - tv).abs() > max_gap {
+                continue;
+            }
+            let h = conv.stage_of(t, &raw.values, i).0 - conv.zero_m;
+            if !h.is_finite() {
+                continue;
+            }
+            if t <= tv && before.is_none_or(|b| t > b.0) {
+                before = Some((t, h));
+            }
+            if t >= tv && after.is_none_or(|b| t < b.0) {
+                after = Some((t, h));
+            }
+        }
+        near.extend(before);
+        near.extend(after);
+    }
+    let staff: Vec<(i64, f64)> = side.points.iter().map(|&(t, v)| (t, v * per)).collect();
+    Ok((drift_points(&staff, &TimeSeries::new(near), max_gap), side.sha256))
+}
+
+/// Applies a drift record to the conversion; returns its warnings.
+pub fn apply_drift(conv: &mut Conversion, record: &[DriftPoint]) -> Vec<String> {
+    conv.drift = usable_drift(record);
+    drift_warnings(&conv.drift)
+}
+
+/// What converting every row gave besides the chunks.
+#[derive(Debug, Clone)]
+pub struct Converted {
+    /// Counts per flag and per case.
+    pub counts: Counts,
+    /// Daily and monthly accumulators.
+    pub summaries: Summaries,
+    /// The hydrograph's buckets.
+    pub buckets: HydroBuckets,
+}
+
+/// The order rows are written in: file order, or by time then line with `sort`.
+pub fn write_order(times: &Times, raw: &RawSeries, sort: bool) -> Option<Vec<u32>> {
+    sort.then(|| {
+        let mut o: Vec<u32> = (0..raw.lines.len() as u32).collect();
+        o.sort_by_key(|&i| {
+            let t = times.utc[i as usize];
+            (if t == NO_TIME { i64::MAX } else { t }, raw.lines[i as usize])
+        });
+        o
+    })
+}
+
+/// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, each chunk on all cores; hands every
+/// finished chunk to `emit` in output order (which returns false to stop: a writer that failed)
+/// and reports progress in rows. Each core's part keeps its own counts and summaries, merged in
+/// order, so the result does not depend on the number of cores.
+pub fn convert_all(
+    conv: &Conversion,
+    times: &Times,
+    raw: &RawSeries,
+    inputs: &Inputs,
+    order: Option<&[u32]>,
+    mut emit: impl FnMut(Chunk) -> bool,
+    mut progress: impl FnMut(u64),
+) -> Converted {
+    let n = raw.lines.len();
+    let (t_min, t_max) = times
+        .utc
+        .iter()
+        .filter(|t| **t != NO_TIME)
+        .fold((i64::MAX, i64::MIN), |(lo, hi), &t| (lo.min(t), hi.max(t)));
+    let empty = HydroBuckets::new(t_min, t_max, 1100);
+    let mut out = Converted {
+        counts: Counts::default(),
+        summaries: Summaries::default(),
+        buckets: empty.clone(),
+    };
+    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    let mut start = 0;
+    while start < n {
+        let end = (start + CHUNK_ROWS).min(n);
+        let idx: Vec<usize> = match order {
+            Some(o) => o[start..end].iter().map(|&i| i as usize).collect(),
+            None => (start..end).collect(),
+        };
+        let per = idx.len().div_ceil(threads).max(1);
+        let parts = std::thread::scope(|scope| {
+            let handles: Vec<_> = idx
+                .chunks(per)
+                .map(|part| {
+                    let mut b = empty.clone();
+                    scope.spawn(move || {
+                        let (mut c, mut sm) = (Counts::default(), Summaries::default());
+                        let chunk = conv.convert_rows(
+                            part,
+                            &times.utc,
+                            &times.days,
+                            &raw.values,
+                            &raw.lines,
+                            inputs,
+                            &mut c,
+                            &mut sm,
+                        );
+                        b.add_rows(
+                            &chunk.time_ms,
+                            &chunk.discharge_m3s,
+                            &chunk.low_m3s,
+                            &chunk.high_m3s,
+                            |k| !chunk.flag[k].counted(),
+                        );
+                        (chunk, c, sm, b)
+                    })
+                })
+                .collect();
+            handles
+                .into_iter()
+                .map(|h| h.join().expect("conversion does not panic"))
+                .collect::<Vec<_>>()
+        });
+        let mut go_on = true;
+        for (chunk, c, sm, b) in parts {
+            out.counts.merge(c);
+            out.summaries.merge(sm);
+            out.buckets.merge(&b);
+            go_on &= emit(chunk);
+        }
+        progress(end as u64);
+        if !go_on {
+            break;
+        }
+        start = end;
+    }
+    out
+}
