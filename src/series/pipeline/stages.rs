@@ -301,3 +301,141 @@ pub fn convert_all(
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::series::settings::{LoggerOverrides, LoggerSettings};
+    use crate::series::time::TimeFormat;
+
+    /// A rectangular test flume on a logger at UTC, zero 0.1 m (invented).
+    fn station() -> Station {
+        Station::from_toml_str(
+            "name = \"stage test\"\nlength_unit = \"m\"\n[control]\nshape = \"rectangle\"\nwidth = 0.5\nlength = 1.0\n[approach]\nshape = \"rectangle\"\nwidth = 1.0\nsill_height = 0.15\n[range]\nmin_head = 0.07\nmax_head = 0.5\n[logger]\ntimezone = \"UTC\"\nzero = 0.1\n",
+            "test.toml",
+        )
+        .expect("station")
+    }
+
+    fn settings(st: &Station) -> LoggerSettings {
+        LoggerSettings::resolve(st.logger.as_ref().expect("logger"), &LoggerOverrides::default(), false)
+            .expect("settings")
+    }
+
+    fn raw(times: &[&str], stages: &[f64]) -> RawSeries {
+        RawSeries::from_readings(times, &[TimeFormat::new("%Y-%m-%d %H:%M")], vec![stages.to_vec()])
+    }
+
+    #[test]
+    fn times_resolve_and_order_the_rows() {
+        let st = station();
+        let mut r = raw(
+            &["2026-01-01 00:30", "2026-01-01 00:15", "bad", "2026-01-01 00:00"],
+            &[0.3, 0.3, 0.3, 0.3],
+        );
+        let t = times(&mut r, &settings(&st)).expect("times");
+        assert!(r.wall_ms.is_empty(), "the wall times are taken");
+        assert_eq!(
+            t.utc[3], 1_767_225_600_000,
+            "2026-01-01T00:00Z (chrono's epoch arithmetic)"
+        );
+        assert_eq!(t.utc[2], NO_TIME);
+        assert!(t.timeline.newest_first);
+        assert_eq!(t.timeline.interval_ms, 900_000);
+    }
+
+    #[test]
+    fn rating_stage_tabulates_within_its_stated_error() {
+        let st = station();
+        let model = RatingModel::new(st.structure.clone()).expect("model");
+        let r = rating(&st, &model).expect("rating");
+        assert!(r.table.max_relative_error < 1e-4);
+        assert!((r.table.top_m() - 0.75).abs() < 1e-12, "1.5 × the range's top");
+        let q = model.discharge_m3s(0.3).expect("q");
+        assert!((r.table.eval(0.3).expect("in table").discharge_m3s / q - 1.0).abs() < 1e-4);
+        assert!(r.equation.is_some() && (1.4..1.7).contains(&r.exponent));
+    }
+
+    #[test]
+    fn a_level_logger_needs_no_side_file_and_a_plausible_range_follows_its_zero() {
+        let st = station();
+        let s = settings(&st);
+        let (source, sha) = stage_source(&s, None, 900_000).expect("level");
+        assert_eq!(source, StageSource::Level { metres_per_unit: 1.0 });
+        assert!(sha.is_none());
+        let p = plausible(&s, &st);
+        assert!((p.min_stage_m + 0.10).abs() < 1e-12);
+        // 10 × (0.1 + 0.5) = 6 m: above the 5 m floor
+        assert!((p.max_stage_m - 6.0).abs() < 1e-12);
+    }
+
+    /// The drift at a visit is staff minus logger at the nearest readings; converting every row
+    /// with it gives the same rows whatever the write order.
+    #[test]
+    fn drift_and_conversion_of_every_row() {
+        let st = station();
+        let s = settings(&st);
+        let model = RatingModel::new(st.structure.clone()).expect("model");
+        let rt = rating(&st, &model).expect("rating");
+        let texts: Vec<String> = (0..8).map(|k| format!("2026-01-01 {:02}:00", k)).collect();
+        let refs: Vec<&str> = texts.iter().map(String::as_str).collect();
+        let mut r = raw(&refs, &[0.4; 8]);
+        let t = times(&mut r, &s).expect("times");
+        let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
+        let mut conv = Conversion {
+            gum: &rt.gum,
+            table: &rt.table,
+            range: st.range,
+            stage: source,
+            zero_m: 0.1,
+            plausible: plausible(&s, &st),
+            invalid_bands: rt.invalid_bands.clone(),
+            drift: Vec::new(),
+            tailwater_column: None,
+            tailwater: None,
+            submerged_estimate: false,
+            exponent: rt.exponent,
+            timeline: &t.timeline,
+            zone: s.zone,
+            gravity_m_s2: 9.80665,
+        };
+        let dir = tempfile::tempdir().expect("tempdir");
+        let visits = dir.path().join("v.csv");
+        // logger head 0.300 m; the staff reads 0.304 m at 03:00: +4 mm
+        std::fs::write(&visits, "time,head_m\n2026-01-01T03:00:00Z,0.304\n").expect("write");
+        let (record, sha) = drift(&conv, &t, &r, &visits, &s).expect("drift");
+        assert_eq!(sha.len(), 64);
+        assert!((record[0].drift_m().expect("drift") - 0.004).abs() < 1e-12);
+        assert!(apply_drift(&mut conv, &record).is_empty(), "4 mm is not warned about");
+        let mut rows = Chunk::default();
+        let c = convert_all(
+            &conv,
+            &t,
+            &r,
+            &rt.inputs,
+            None,
+            |ch| {
+                rows.append(ch);
+                true
+            },
+            |_| {},
+        );
+        assert_eq!(c.counts.per_flag[6], 8, "all ok");
+        assert!(rows.head_m.iter().all(|h| (h - 0.304).abs() < 1e-12));
+        let order = write_order(&t, &r, true).expect("order");
+        let mut sorted = Chunk::default();
+        convert_all(
+            &conv,
+            &t,
+            &r,
+            &rt.inputs,
+            Some(&order),
+            |ch| {
+                sorted.append(ch);
+                true
+            },
+            |_| {},
+        );
+        assert_eq!(rows.discharge_m3s, sorted.discharge_m3s, "already in time order");
+    }
+}
