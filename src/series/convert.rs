@@ -21,7 +21,6 @@ use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
 use super::time::{civil_from_days, date_string, local_day_start_utc, TimeNote, Zone, NO_TIME};
 use super::timeline::Timeline;
-use crate::rating::RatingModel;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_estimate, NoEstimate, Tailwater};
 use crate::uncertainty::{BandWeights, GumModel, Inputs, PeriodAccumulator, SeriesReading};
@@ -501,7 +500,9 @@ impl Conversion<'_> {
         }
     }
 
-    /// Converts rows `order` (indices into the arrays) into a chunk, updating counts and summaries.
+    /// Converts rows `order` (indices into the arrays) into a chunk, updating counts and
+    /// summaries: the stage and head of every row, then the rating and band of every head in a
+    /// tight loop, then each row's flag, its rare cases and its share of the summaries.
     #[allow(clippy::too_many_arguments)]
     pub fn convert_rows(
         &self,
@@ -514,6 +515,27 @@ impl Conversion<'_> {
         counts: &mut Counts,
         summaries: &mut Summaries,
     ) -> Chunk {
+        let weights = BandWeights::new(inputs);
+        let mut c = self.heads(order, utc, values, lines, counts);
+        let (mut sens, rated) = self.rate_heads(&mut c, &weights);
+        let mut day_end = DayEnds::new(self.zone);
+        for (k, &i) in order.iter().enumerate() {
+            let (flag, reading) = self.flag_row(k, i, values, &mut c, &mut sens, &rated, &weights, counts);
+            counts.per_flag[flag as usize] += 1;
+            if c.time_ms[k] != NO_TIME {
+                let counted = flag.counted() && !self.timeline.is_repeat(i, c.line[k]);
+                let duration_ms = self.timeline.duration_ms(i, utc);
+                let row = (c.time_ms[k], i64::from(days[i]), c.discharge_m3s[k]);
+                add_to_summaries(summaries, &mut day_end, row, reading.filter(|_| counted), duration_ms);
+            }
+            c.flag.push(flag);
+        }
+        c
+    }
+
+    /// Stage 1 of [`Self::convert_rows`]: the time, stage and head of every row (impossible
+    /// readings get no head and are listed).
+    fn heads(&self, order: &[usize], utc: &[i64], values: &[Vec<f64>], lines: &[u32], counts: &mut Counts) -> Chunk {
         let n = order.len();
         let mut c = Chunk {
             time_ms: Vec::with_capacity(n),
@@ -526,23 +548,6 @@ impl Conversion<'_> {
             line: Vec::with_capacity(n),
             counted_line: Vec::with_capacity(n),
         };
-        let model: &RatingModel = self.gum.model();
-        let weights = BandWeights::new(inputs);
-        // a reading from [Q, ∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h], and its band (never below 0)
-        let reading_of = |v: [f64; 4], duration_s: f64, included: bool| SeriesReading {
-            discharge_m3s: v[0],
-            dq_dcoefficient: v[1],
-            dq_ddimension: v[2],
-            dq_dhead: v[3],
-            duration_s,
-            included,
-        };
-        let band_of = |v: [f64; 4]| {
-            let (lo, hi) = weights.band(&reading_of(v, 0.0, false));
-            (lo.max(0.0), hi)
-        };
-        let mut day_end = DayEnds::new(self.zone);
-        // 1. stage and head of every row
         for &i in order {
             let t = utc[i];
             let (stage, no_baro, fallback) = self.stage_of(t, values, i);
@@ -575,8 +580,14 @@ impl Conversion<'_> {
             c.line.push(lines[i]);
             c.counted_line.push(self.timeline.counted_line(i).unwrap_or(0));
         }
-        // 2. the rating and band of every head above the crest, in a tight loop over rows that
-        // do not depend on each other (so that the processor overlaps them)
+        c
+    }
+
+    /// Stage 2 of [`Self::convert_rows`]: the rating and band of every head above the crest
+    /// from the dense table, in a tight loop over rows that do not depend on each other (so that
+    /// the processor overlaps them). Returns the sensitivities and whether the table rated it.
+    fn rate_heads(&self, c: &mut Chunk, weights: &BandWeights) -> (Vec<[f64; 3]>, Vec<bool>) {
+        let n = c.time_ms.len();
         let mut sens: Vec<[f64; 3]> = Vec::with_capacity(n);
         let mut rated: Vec<bool> = Vec::with_capacity(n);
         for k in 0..n {
@@ -587,7 +598,7 @@ impl Conversion<'_> {
                 None
             };
             let (q, s3, band, ok) = match r {
-                Some(r) => (r[0], [r[1], r[2], r[3]], band_of(r), true),
+                Some(r) => (r[0], [r[1], r[2], r[3]], band_of(weights, r), true),
                 None => (f64::NAN, [f64::NAN; 3], (f64::NAN, f64::NAN), false),
             };
             c.discharge_m3s.push(q);
@@ -596,107 +607,150 @@ impl Conversion<'_> {
             sens.push(s3);
             rated.push(ok);
         }
-        // 3. flags, the rare cases (above the table, drowned) and the summaries
-        for (k, &i) in order.iter().enumerate() {
-            let (t, head) = (c.time_ms[k], c.head_m[k]);
-            let mut flag = Flag::Missing;
-            let mut reading: Option<SeriesReading> = None;
-            if t != NO_TIME && head.is_finite() {
-                if head <= 0.0 {
-                    flag = Flag::Dry;
-                    c.discharge_m3s[k] = 0.0;
-                    c.low_m3s[k] = 0.0;
-                    c.high_m3s[k] = 0.0;
-                    reading = Some(reading_of([0.0; 4], 0.0, true));
-                } else {
-                    let exact = if rated[k] {
-                        None
-                    } else {
-                        self.rated(head, counts, c.line[k])
-                    };
-                    if let Some(r) = exact {
-                        // above the dense table: the model itself
-                        let v = [r.discharge_m3s, r.dq_dcoefficient, r.dq_ddimension, r.dq_dhead];
-                        (c.low_m3s[k], c.high_m3s[k]) = band_of(v);
-                        c.discharge_m3s[k] = r.discharge_m3s;
-                        sens[k] = [v[1], v[2], v[3]];
-                    }
-                    if rated[k] || exact.is_some() {
-                        let mut q = c.discharge_m3s[k];
-                        flag = if head > self.range.max_head_m {
-                            Flag::AboveRange
-                        } else if head < self.range.min_head_m {
-                            Flag::BelowRange
-                        } else if crate::rating::limits::in_bands(&self.invalid_bands, head) {
-                            Flag::BeyondLimits
-                        } else {
-                            Flag::Ok
-                        };
-                        if let Some((col, per, zero)) = self.tailwater_column {
-                            let tw = values[col][i];
-                            let r = exact.or_else(|| self.table.eval(head));
-                            if let (true, Some(r)) = (tw.is_finite(), r) {
-                                let level = tw * per - zero;
-                                let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
-                                let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
-                                if s > r.modular_limit {
-                                    flag = Flag::Submerged;
-                                    let est = submerged_estimate(model, q, s, r.modular_limit, self.exponent);
-                                    match est {
-                                        Ok(e) if self.submerged_estimate => {
-                                            let ratio = e / q;
-                                            c.low_m3s[k] *= ratio;
-                                            c.high_m3s[k] *= ratio;
-                                            q = e;
-                                            c.discharge_m3s[k] = e;
-                                            counts.submerged_estimated += 1;
-                                        }
-                                        other => {
-                                            counts.submerged_not_estimated += 1;
-                                            match other {
-                                                Err(NoEstimate::NotAWeir) => counts.submerged_not_a_weir += 1,
-                                                Err(NoEstimate::TooDrowned) => counts.submerged_too_drowned += 1,
-                                                _ => counts.submerged_not_asked += 1,
-                                            }
-                                        }
-                                    }
-                                }
-                            }
-                        }
-                        let [dcd, db, dh] = sens[k];
-                        reading = Some(reading_of([q, dcd, db, dh], 0.0, flag.counted()));
-                    }
-                }
-            }
-            counts.per_flag[flag as usize] += 1;
-            if t != NO_TIME {
-                let repeat = self.timeline.is_repeat(i, c.line[k]);
-                let counted = flag.counted() && !repeat;
-                let duration_ms = self.timeline.duration_ms(i, utc);
-                let day = i64::from(days[i]);
-                match reading.filter(|_| counted) {
-                    None => summaries.add(day, false, c.discharge_m3s[k], None),
-                    Some(mut r) => {
-                        // the part of the reading's time within its own day, then any rest
-                        let end = day_end.of(day);
-                        let own = duration_ms.min((end - t).max(0));
-                        r.duration_s = own as f64 / 1000.0;
-                        summaries.add(day, true, c.discharge_m3s[k], Some(&r));
-                        let (mut rest, mut d, mut from) = (duration_ms - own, day, end);
-                        while rest > 0 {
-                            d += 1;
-                            let part = rest.min(day_end.of(d) - from).max(1);
-                            r.duration_s = part as f64 / 1000.0;
-                            summaries.add_spill(d, &r);
-                            rest -= part;
-                            from += part;
-                        }
-                    }
-                }
-            }
-            c.flag.push(flag);
+        (sens, rated)
+    }
+
+    /// Stage 3 of [`Self::convert_rows`] for row `k` (input row `i`): its flag, the rare cases
+    /// (above the table: the model itself; drowned: the flag and, where asked and applicable,
+    /// the drowned-flow estimate) and the reading it adds to the summaries.
+    #[allow(clippy::too_many_arguments)]
+    fn flag_row(
+        &self,
+        k: usize,
+        i: usize,
+        values: &[Vec<f64>],
+        c: &mut Chunk,
+        sens: &mut [[f64; 3]],
+        rated: &[bool],
+        weights: &BandWeights,
+        counts: &mut Counts,
+    ) -> (Flag, Option<SeriesReading>) {
+        let (t, head) = (c.time_ms[k], c.head_m[k]);
+        if t == NO_TIME || !head.is_finite() {
+            return (Flag::Missing, None);
         }
-        c
+        if head <= 0.0 {
+            c.discharge_m3s[k] = 0.0;
+            c.low_m3s[k] = 0.0;
+            c.high_m3s[k] = 0.0;
+            return (Flag::Dry, Some(reading_of([0.0; 4], 0.0, true)));
+        }
+        let exact = if rated[k] {
+            None
+        } else {
+            self.rated(head, counts, c.line[k])
+        };
+        if let Some(r) = exact {
+            // above the dense table: the model itself
+            let v = [r.discharge_m3s, r.dq_dcoefficient, r.dq_ddimension, r.dq_dhead];
+            (c.low_m3s[k], c.high_m3s[k]) = band_of(weights, v);
+            c.discharge_m3s[k] = r.discharge_m3s;
+            sens[k] = [v[1], v[2], v[3]];
+        }
+        if !rated[k] && exact.is_none() {
+            return (Flag::Missing, None);
+        }
+        let mut flag = if head > self.range.max_head_m {
+            Flag::AboveRange
+        } else if head < self.range.min_head_m {
+            Flag::BelowRange
+        } else if crate::rating::limits::in_bands(&self.invalid_bands, head) {
+            Flag::BeyondLimits
+        } else {
+            Flag::Ok
+        };
+        if let Some((col, per, zero)) = self.tailwater_column {
+            let r = exact.or_else(|| self.table.eval(head));
+            if let (true, Some(r)) = (values[col][i].is_finite(), r) {
+                let level = values[col][i] * per - zero;
+                if self.drowned(k, level, &r, c, counts) {
+                    flag = Flag::Submerged;
+                }
+            }
+        }
+        let [dcd, db, dh] = sens[k];
+        (
+            flag,
+            Some(reading_of([c.discharge_m3s[k], dcd, db, dh], 0.0, flag.counted())),
+        )
+    }
+
+    /// Whether the logged tailwater `level` (m above the crest) drowns row `k`; if so, the
+    /// drowned-flow estimate replaces its discharge where asked and applicable, and the counts
+    /// say why not elsewhere.
+    fn drowned(&self, k: usize, level: f64, r: &RatedHead, c: &mut Chunk, counts: &mut Counts) -> bool {
+        let q = c.discharge_m3s[k];
+        let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
+        let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
+        if s <= r.modular_limit {
+            return false;
+        }
+        match submerged_estimate(self.gum.model(), q, s, r.modular_limit, self.exponent) {
+            Ok(e) if self.submerged_estimate => {
+                let ratio = e / q;
+                c.low_m3s[k] *= ratio;
+                c.high_m3s[k] *= ratio;
+                c.discharge_m3s[k] = e;
+                counts.submerged_estimated += 1;
+            }
+            other => {
+                counts.submerged_not_estimated += 1;
+                match other {
+                    Err(NoEstimate::NotAWeir) => counts.submerged_not_a_weir += 1,
+                    Err(NoEstimate::TooDrowned) => counts.submerged_too_drowned += 1,
+                    _ => counts.submerged_not_asked += 1,
+                }
+            }
+        }
+        true
+    }
+}
+
+/// A reading from [Q, ∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h].
+fn reading_of(v: [f64; 4], duration_s: f64, included: bool) -> SeriesReading {
+    SeriesReading {
+        discharge_m3s: v[0],
+        dq_dcoefficient: v[1],
+        dq_ddimension: v[2],
+        dq_dhead: v[3],
+        duration_s,
+        included,
+    }
+}
+
+/// The 95 % band of a reading from [Q, ∂Q/∂f_Cd, ∂Q/∂f_b, ∂Q/∂h], never below 0.
+#[inline]
+fn band_of(weights: &BandWeights, v: [f64; 4]) -> (f64, f64) {
+    let (lo, hi) = weights.band(&reading_of(v, 0.0, false));
+    (lo.max(0.0), hi)
+}
+
+/// Adds a row (instant, local day, discharge) to the summaries: a counted reading stands for
+/// `duration_ms`, the part within its own day there and any rest in the days after; any other
+/// row adds to its day's row count only.
+fn add_to_summaries(
+    summaries: &mut Summaries,
+    day_end: &mut DayEnds,
+    (t, day, q): (i64, i64, f64),
+    reading: Option<SeriesReading>,
+    duration_ms: i64,
+) {
+    let Some(mut r) = reading else {
+        summaries.add(day, false, q, None);
+        return;
+    };
+    let end = day_end.of(day);
+    let own = duration_ms.min((end - t).max(0));
+    r.duration_s = own as f64 / 1000.0;
+    summaries.add(day, true, q, Some(&r));
+    let (mut rest, mut d, mut from) = (duration_ms - own, day, end);
+    while rest > 0 {
+        d += 1;
+        let part = rest.min(day_end.of(d) - from).max(1);
+        r.duration_s = part as f64 / 1000.0;
+        summaries.add_spill(d, &r);
+        rest -= part;
+        from += part;
     }
 }
 
