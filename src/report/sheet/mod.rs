@@ -10,6 +10,10 @@
 //! told by colour alone: hatching and struck-through values say "outside the limits" on a
 //! monochrome printer too, and the text names columns by their headings.
 
+mod build;
+
+pub use build::{SheetError, SheetOptions, MAX_ROWS};
+
 use super::CAUTIONS;
 use crate::units::Units;
 
@@ -95,12 +99,24 @@ fn esc(s: &str) -> String {
 impl Sheet {
     /// The page as HTML.
     pub fn to_html(&self) -> String {
-        let (lu, qu) = self.units.symbols();
+        let mut h = String::with_capacity(64 * 1024);
+        self.head_html(&mut h);
+        self.header_html(&mut h);
+        self.facts_html(&mut h);
+        self.grid_html(&mut h);
+        h.push_str(&format!(
+            "<footer><b>{}</b></footer>\n</div>\n</body>\n</html>\n",
+            esc(CAUTIONS)
+        ));
+        h
+    }
+
+    /// The document's head: title and the print style for the paper.
+    fn head_html(&self, h: &mut String) {
         let page = match self.paper {
             Paper::A4 => "A4 portrait",
             Paper::Letter => "letter portrait",
         };
-        let mut h = String::with_capacity(64 * 1024);
         h.push_str("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n");
         h.push_str(&format!("<title>Field sheet: {}</title>\n", esc(&self.name)));
         h.push_str("<style>\n");
@@ -141,6 +157,11 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
 <div class="sheet">
 "#,
         );
+    }
+
+    /// The station, how the sheet was made, units and datum.
+    fn header_html(&self, h: &mut String) {
+        let (lu, qu) = self.units.symbols();
         h.push_str(&format!("<header>\n<h1>{}</h1>\n", esc(&self.name)));
         for line in &self.structure {
             h.push_str(&format!("<p>{}</p>\n", esc(line)));
@@ -159,7 +180,11 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
             esc(&self.source),
             esc(&self.sha256)
         ));
+    }
 
+    /// The facts beside the curve: equation, uncertainty, the tailwater instruction, the curve.
+    fn facts_html(&self, h: &mut String) {
+        let lu = self.units.symbols().0;
         h.push_str("<section class=\"top\">\n<div class=\"facts\">\n");
         h.push_str(&format!("<p><b>Rating equation</b>: {}</p>\n", esc(&self.equation)));
         h.push_str("<table class=\"unc\"><tr><th>h1</th>");
@@ -181,7 +206,12 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         h.push_str("</div>\n<div class=\"curve\">\n");
         h.push_str(&self.svg);
         h.push_str("\n</div>\n</section>\n");
+    }
 
+    /// The grid of discharges, the largest modular tailwater per row, and the key to the
+    /// limits rows break.
+    fn grid_html(&self, h: &mut String) {
+        let (lu, qu) = self.units.symbols();
         // the limits rows break, numbered in order of first appearance
         let mut keys: Vec<&str> = Vec::new();
         for row in &self.rows {
@@ -254,10 +284,5 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
             h.push_str(&parts.join("; "));
             h.push_str("</p>\n");
         }
-        h.push_str(&format!(
-            "<footer><b>{}</b></footer>\n</div>\n</body>\n</html>\n",
-            esc(CAUTIONS)
-        ));
-        h
     }
 }
