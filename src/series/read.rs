@@ -192,6 +192,14 @@ pub enum ReadError {
         /// File.
         path: String,
     },
+    /// A quote does not close on its line.
+    #[error("{path}:{line}: a quote (\") opens a field that does not close on this line: quoted fields must close on the line they open\n  fix: remove the stray quote or close the field; a line break inside a quoted field is not read")]
+    UnmatchedQuote {
+        /// File.
+        path: String,
+        /// The line.
+        line: usize,
+    },
     /// Lines end in a bare carriage return.
     #[error("{path}: line {line} holds a carriage return (\\r) that does not end a line: the file's lines seem to end in a bare \\r (an old Mac text file), which flumerate does not read as line ends\n  fix: convert the line ends first, e.g. tr '\\r' '\\n' < {path} > fixed.csv")]
     BareCarriageReturn {
@@ -542,7 +550,7 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     // the rest: polars splits the next block on its own thread while this one is taken in
     let layout = Arc::new(layout);
     let (split_tx, splits) =
-        std::sync::mpsc::sync_channel::<std::io::Result<(Block, (usize, Result<Split, String>))>>(1);
+        std::sync::mpsc::sync_channel::<std::io::Result<(Block, (usize, Result<Split, SplitFailure>))>>(1);
     let splitting = {
         let (layout, s) = (layout.clone(), s.clone());
         std::thread::spawn(move || {
@@ -736,9 +744,39 @@ fn long_lines(block: &[u8], sep: u8, quoted: bool, header_fields: usize) -> Vec<
 }
 
 /// Lets polars split a block of whole lines into fields; the error is polars' message.
-fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Result<Split, String>) {
+fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Result<Split, SplitFailure>) {
     let n_lines = memchr::memchr_iter(b'\n', block).count() + usize::from(block.last() != Some(&b'\n'));
-    let split = || -> Result<Split, String> {
+    if layout.quoted {
+        // a quote that does not close on its line would join lines into one field: refuse it
+        // here, naming the line, before polars sees it
+        if let Some(k) = block
+            .split(|b| *b == b'\n')
+            .position(|l| l.iter().filter(|b| **b == b'"').count() % 2 == 1)
+        {
+            return (n_lines, Err(SplitFailure::UnmatchedQuote(k)));
+        }
+    }
+    // polars should never panic on a block; if it does, the block is refused like any other
+    // that cannot be split, never allowed to stop the program
+    let split = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        split_with_polars(block, n_lines, layout, s)
+    }))
+    .unwrap_or_else(|_| Err("polars stopped on these lines".into()))
+    .map_err(SplitFailure::Polars);
+    (n_lines, split)
+}
+
+/// Why a block could not be split into fields.
+enum SplitFailure {
+    /// polars' message.
+    Polars(String),
+    /// The block's line (0-based) with a quote that does not close.
+    UnmatchedQuote(usize),
+}
+
+/// Lets polars split a block of `n_lines` whole lines; the error is polars' message.
+fn split_with_polars(block: &[u8], n_lines: usize, layout: &Layout, s: &ReadSettings) -> Result<Split, String> {
+    {
         let df = CsvReadOptions::default()
             .with_has_header(false)
             .with_schema(Some(layout.schema.clone()))
@@ -782,8 +820,7 @@ fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Resul
             .collect::<Result<_, String>>()?;
         let long = long_lines(block, s.separator, layout.quoted, layout.header_fields);
         Ok(Split { times, values, long })
-    };
-    (n_lines, split())
+    }
 }
 
 /// Takes one block of whole lines (the first is line `before + 1`), as polars split it, into
@@ -791,7 +828,7 @@ fn split_block(block: &[u8], layout: &Layout, s: &ReadSettings) -> (usize, Resul
 #[allow(clippy::too_many_arguments)]
 fn take_block(
     block: &[u8],
-    split: (usize, Result<Split, String>),
+    split: (usize, Result<Split, SplitFailure>),
     before: usize,
     layout: &Layout,
     s: &ReadSettings,
@@ -801,11 +838,17 @@ fn take_block(
 ) -> Result<usize, ReadError> {
     let first_line = before + 1;
     let (n_lines, split) = split;
-    let Split { times, values, long } = split.map_err(|message| ReadError::Polars {
-        path: p.to_string(),
-        from: first_line,
-        to: first_line + n_lines.saturating_sub(1),
-        message,
+    let Split { times, values, long } = split.map_err(|failure| match failure {
+        SplitFailure::Polars(message) => ReadError::Polars {
+            path: p.to_string(),
+            from: first_line,
+            to: first_line + n_lines.saturating_sub(1),
+            message,
+        },
+        SplitFailure::UnmatchedQuote(k) => ReadError::UnmatchedQuote {
+            path: p.to_string(),
+            line: first_line + k,
+        },
     })?;
 
     let base = *filled;
@@ -1254,6 +1297,24 @@ mod tests {
             .expect_err("refused")
             .to_string();
         assert!(e.contains("decimal comma") && e.contains("fix:"), "{e}");
+    }
+
+    /// A quote that does not close on its line is refused with its line, before polars sees it
+    /// (found by the fuzzer: polars 0.55.2 panicked on a lone quote at the end of a block).
+    #[test]
+    fn an_unmatched_quote_is_refused_with_its_line() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let path = dir.path().join("q.csv");
+        for text in [
+            "x\n\"time\",\"stage\",\"temp\"\n\"2026-01-01 00:00\",\"0.5\",\"1\"\n\"2026-01-01 00:15\",\"",
+            "x\n\"time\",\"stage\",\"temp\"\n\"2026-01-01 00:00\",\"0.5\",\"1\"\n\"2026-01-01 00:15\",\"0.5,1\n",
+        ] {
+            std::fs::write(&path, text).expect("write");
+            let e = read_logger(&path, &settings(b',', false), |_| {})
+                .expect_err("refused")
+                .to_string();
+            assert!(e.contains("q.csv:4: a quote"), "{e}");
+        }
     }
 
     /// Lines ending in a bare carriage return are refused with the line and the fix.
