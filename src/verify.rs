@@ -37,41 +37,130 @@ fn rect_model(b: f64, big_b: f64, p: f64, l: f64, loss: LossMethod) -> Option<Ra
     RatingModel::new(Structure::rectangular(b, big_b, p, l, loss)).ok()
 }
 
+/// A check of `what` from `source`: `got` against `expected` within `tolerance` (relative).
+fn check(what: &'static str, source: &'static str, expected: f64, got: f64, tolerance: f64) -> Check {
+    Check {
+        what,
+        source,
+        expected,
+        got,
+        tolerance,
+    }
+}
+
+/// The first critical depth of `s` at discharge `q` (NaN if none).
+fn first_critical(s: &Section, q: f64) -> f64 {
+    critical_depths_m(s, q, 1.0, G)
+        .ok()
+        .and_then(|v| v.first().copied())
+        .unwrap_or(f64::NAN)
+}
+
 /// Runs every built-in check.
 pub fn checks() -> Vec<Check> {
-    let nan = f64::NAN;
+    let mut all = critical_flow_checks();
+    all.extend(rating_checks());
+    all.extend(uncertainty_checks());
+    all.extend(tailwater_checks());
+    all
+}
+
+/// Critical flow in simple sections (docs/references.md C1, C2).
+fn critical_flow_checks() -> Vec<Check> {
     let rect = Section::Rectangle { width_m: 1.0 };
     let trap = Section::Trapezoid {
         bottom_width_m: 2.0,
         side_slope: 1.5,
     };
     let circle = Section::Circle { diameter_m: 1.0 };
-    let first = |s: &Section, q: f64| {
-        critical_depths_m(s, q, 1.0, G)
-            .ok()
-            .and_then(|v| v.first().copied())
-            .unwrap_or(nan)
-    };
-    let c = |what, source, expected, got, tolerance| Check {
-        what,
-        source,
-        expected,
-        got,
-        tolerance,
-    };
-    let yc_rect = first(&rect, 0.3);
+    let yc_rect = first_critical(&rect, 0.3);
+    vec![
+        check(
+            "critical depth, rectangle, q = 0.3 m²/s (m)",
+            "energy equation and critical condition (Chow 1959 ch. 3), computed independently: docs/references.md C1",
+            0.2093665410,
+            yc_rect,
+            1e-9,
+        ),
+        check(
+            "critical specific energy, same (m)",
+            "E_c = 1.5 y_c (Chow 1959 ch. 3), computed independently: docs/references.md C1",
+            0.3140498115,
+            specific_energy_m(&rect, yc_rect, 0.3, 1.0, G),
+            1e-9,
+        ),
+        check(
+            "subcritical alternate depth at E = 1 m (m)",
+            "specific-energy equation (Chow 1959 ch. 3), computed independently: docs/references.md C1",
+            0.9953684743,
+            alternate_depths_m(&rect, 1.0, 0.3, 1.0, G).map_or(f64::NAN, |a| a.subcritical_m),
+            1e-9,
+        ),
+        check(
+            "critical depth, trapezoid b = 2 m, z = 1.5, Q = 5 m³/s (m)",
+            "critical condition Q²T/gA³ = 1 (Chow 1959 ch. 4), computed independently: docs/references.md C1",
+            0.7143239931,
+            first_critical(&trap, 5.0),
+            1e-9,
+        ),
+        check(
+            "critical depth, circle D = 1 m, Q = 0.5 m³/s (m)",
+            "critical condition Q²T/gA³ = 1 (Chow 1959 ch. 4), computed independently: docs/references.md C1",
+            0.3988767311,
+            first_critical(&circle, 0.5),
+            1e-9,
+        ),
+        check(
+            "ideal discharge, circle D = 1 m at H = 0.8 m (m³/s)",
+            "E_c = y_c + A_c/2B_c (Clemmens et al. 2001 ch. 6), computed independently: docs/references.md C2",
+            0.9822876420,
+            critical_at_energy(&circle, 0.8, 1.0, G).discharge_m3s,
+            1e-9,
+        ),
+        check(
+            "90° V at H = 0.3 m, (16/25)√(2g/5)·H^2.5 (m³/s)",
+            "closed form for a triangular control (Henderson 1966 ch. 2): docs/references.md C1",
+            0.0624846648,
+            critical_at_energy(&Section::Triangle { side_slope: 1.0 }, 0.3, 1.0, G).discharge_m3s,
+            1e-9,
+        ),
+    ]
+}
+
+/// Ratings with approach velocity, ideal and by ISO 4359's own formula (docs/references.md C2, C3).
+fn rating_checks() -> Vec<Check> {
     let fixed = rect_model(1.0, 1.0, 0.3, 1.0, LossMethod::FixedCd(1.0));
     let iso = rect_model(
         0.5,
         1.0,
         0.1,
         1.0,
-        LossMethod::BoundaryLayer {
+        LossMethod::Iso4359 {
             displacement_thickness_m: 0.003,
         },
     );
-    let flume_8_2 = rect_model(0.5, 1.0, 0.1, 1.0, LossMethod::FixedCd(0.9658535721));
-    let gum = flume_8_2.as_ref().and_then(|m| {
+    vec![
+        check(
+            "rectangle Cd = 1 with approach velocity, h1 = 0.3 m (m³/s)",
+            "energy equation with approach velocity (Henderson 1966 ch. 2), computed independently: docs/references.md C2",
+            0.2978773982,
+            fixed.and_then(|m| m.discharge_m3s(0.3).ok()).unwrap_or(f64::NAN),
+            1e-9,
+        ),
+        check(
+            "ISO 4359 rectangular throat, coefficient = \"iso-4359\", h1 = 0.2 m (m³/s)",
+            "ISO 4359 rectangular-throat formulas (Cd = (1 − 0.006 L/b)(1 − 0.003 L/h)^1.5, from memory), computed independently: docs/references.md C3",
+            0.0754155493,
+            iso.and_then(|m| m.discharge_m3s(0.2).ok()).unwrap_or(f64::NAN),
+            1e-9,
+        ),
+    ]
+}
+
+/// The uncertainty of one reading of docs/references.md C4's flume.
+fn uncertainty_checks() -> Vec<Check> {
+    let flume = rect_model(0.5, 1.0, 0.1, 1.0, LossMethod::FixedCd(0.9658535721));
+    let gum = flume.as_ref().and_then(|m| {
         let spec = UncertaintySpec {
             coefficient_pct: Some(2.0),
             zero_mm: Some(1.0),
@@ -88,9 +177,37 @@ pub fn checks() -> Vec<Check> {
         let inputs = Inputs::from_station(&spec, m.structure());
         GumModel::new(m, inputs).ok().and_then(|g| g.point(0.2).ok())
     });
+    let source = "JCGM 100:2008 §5.1.3 sensitivities, computed independently: docs/references.md C4";
+    vec![
+        check(
+            "sensitivity of Q to Cd with Cv solved",
+            source,
+            1.04994,
+            gum.map_or(f64::NAN, |p| p.sensitivity_coefficient()),
+            1e-4,
+        ),
+        check(
+            "sensitivity of Q to h with Cv solved",
+            source,
+            1.51665,
+            gum.map_or(f64::NAN, |p| p.sensitivity_head(0.2)),
+            1e-4,
+        ),
+        check(
+            "GUM u_c(Q)/Q (%)",
+            "JCGM 100:2008 §5.1.2 law of propagation, computed independently: docs/references.md C4",
+            1.3712,
+            gum.map_or(f64::NAN, |p| p.u_rel * 100.0),
+            1e-4,
+        ),
+    ]
+}
+
+/// The exit energy balance and Villemonte's ratio (docs/references.md C6, C7).
+fn tailwater_checks() -> Vec<Check> {
     let h1 = 0.25;
     let vc = (G * h1 * 2.0 / 3.0).sqrt();
-    let q44 = 0.5 * (h1 * 2.0 / 3.0) * vc;
+    let q = 0.5 * (h1 * 2.0 / 3.0) * vc;
     let tw = Tailwater::new(
         TailwaterSpec::Channel {
             bed_below_crest_m: 0.1,
@@ -101,98 +218,14 @@ pub fn checks() -> Vec<Check> {
         G,
     );
     vec![
-        c(
-            "critical depth, rectangle, q = 0.3 m²/s (m)",
-            "energy equation and critical condition (Chow 1959 ch. 3), computed independently: docs/references.md C1",
-            0.2093665410,
-            yc_rect,
-            1e-9,
-        ),
-        c(
-            "critical specific energy, same (m)",
-            "E_c = 1.5 y_c (Chow 1959 ch. 3), computed independently: docs/references.md C1",
-            0.3140498115,
-            specific_energy_m(&rect, yc_rect, 0.3, 1.0, G),
-            1e-9,
-        ),
-        c(
-            "subcritical alternate depth at E = 1 m (m)",
-            "specific-energy equation (Chow 1959 ch. 3), computed independently: docs/references.md C1",
-            0.9953684743,
-            alternate_depths_m(&rect, 1.0, 0.3, 1.0, G).map_or(nan, |a| a.subcritical_m),
-            1e-9,
-        ),
-        c(
-            "critical depth, trapezoid b = 2 m, z = 1.5, Q = 5 m³/s (m)",
-            "critical condition Q²T/gA³ = 1 (Chow 1959 ch. 4), computed independently: docs/references.md C1",
-            0.7143239931,
-            first(&trap, 5.0),
-            1e-9,
-        ),
-        c(
-            "critical depth, circle D = 1 m, Q = 0.5 m³/s (m)",
-            "critical condition Q²T/gA³ = 1 (Chow 1959 ch. 4), computed independently: docs/references.md C1",
-            0.3988767311,
-            first(&circle, 0.5),
-            1e-9,
-        ),
-        c(
-            "ideal discharge, circle D = 1 m at H = 0.8 m (m³/s)",
-            "E_c = y_c + A_c/2B_c (Clemmens et al. 2001 ch. 6), computed independently: docs/references.md C2",
-            0.9822876420,
-            critical_at_energy(&circle, 0.8, 1.0, G).discharge_m3s,
-            1e-9,
-        ),
-        c(
-            "90° V at H = 0.3 m, (16/25)√(2g/5)·H^2.5 (m³/s)",
-            "closed form for a triangular control (Henderson 1966 ch. 2): docs/references.md C1",
-            0.0624846648,
-            critical_at_energy(&Section::Triangle { side_slope: 1.0 }, 0.3, 1.0, G).discharge_m3s,
-            1e-9,
-        ),
-        c(
-            "rectangle Cd = 1 with approach velocity, h1 = 0.3 m (m³/s)",
-            "energy equation with approach velocity (Henderson 1966 ch. 2), computed independently: docs/references.md C2",
-            0.2978773982,
-            fixed.and_then(|m| m.discharge_m3s(0.3).ok()).unwrap_or(nan),
-            1e-9,
-        ),
-        c(
-            "ISO 4359 rectangular throat, δ* = 0.003 L, h1 = 0.2 m (m³/s)",
-            "ISO 4359 rectangular-throat formulas (Cd = (1 − 0.006 L/b)(1 − 0.003 L/h)^1.5, from memory), computed independently: docs/references.md C3",
-            0.0754155493,
-            iso.and_then(|m| m.discharge_m3s(0.2).ok()).unwrap_or(nan),
-            1.5e-3,
-        ),
-        c(
-            "sensitivity of Q to Cd with Cv solved",
-            "JCGM 100:2008 §5.1.3 sensitivities, computed independently: docs/references.md C4",
-            1.04994,
-            gum.map_or(nan, |p| p.sensitivity_coefficient()),
-            1e-4,
-        ),
-        c(
-            "sensitivity of Q to h with Cv solved",
-            "JCGM 100:2008 §5.1.3 sensitivities, computed independently: docs/references.md C4",
-            1.51665,
-            gum.map_or(nan, |p| p.sensitivity_head(0.2)),
-            1e-4,
-        ),
-        c(
-            "GUM u_c(Q)/Q (%)",
-            "JCGM 100:2008 §5.1.2 law of propagation, computed independently: docs/references.md C4",
-            1.3712,
-            gum.map_or(nan, |p| p.u_rel * 100.0),
-            1e-4,
-        ),
-        c(
+        check(
             "modular limit, ξ = 1.0, friction ignored",
             "exit energy balance of Bos & Reinink 1981, computed independently: docs/references.md C6",
             0.8261,
-            max_tailwater_energy_m(h1, vc, 1.0, 0.0, q44, Some(&tw), G) / h1,
+            max_tailwater_energy_m(h1, vc, 1.0, 0.0, q, Some(&tw), G) / h1,
             1e-4,
         ),
-        c(
+        check(
             "Villemonte Qs/Q at S = 0.8, n = 1.5",
             "Villemonte 1947, Engineering News-Record 139: docs/references.md C7",
             0.6163070,

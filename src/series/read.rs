@@ -487,65 +487,25 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     let file = std::fs::File::open(path).map_err(io)?;
     let total_bytes = file.metadata().map_or(0, |m| m.len());
     let (blocks, reading) = spawn_reader(file);
-
     let mut out = RawSeries {
         values: vec![Vec::new(); s.values.len()],
         empty_fields: vec![0; s.values.len()],
         sentinel_fields: vec![0; s.values.len()],
         ..Default::default()
     };
-    let mut layout: Option<Layout> = None;
-    let mut line_no: usize = 0;
     let mut filled: usize = 0;
-    // before the header is found: the lines seen so far
-    let mut head: Vec<u8> = Vec::new();
-    // the header, from the first block(s)
-    let mut first: Option<(Block, usize)> = None;
-    for block in &blocks {
-        let block = block.map_err(io)?;
-        head.extend_from_slice(&block.bytes[..block.end]);
-        if !block.eof && memchr::memchr_iter(b'\n', &head).count() <= s.skip_lines + usize::from(s.has_header) {
-            continue; // not even the header yet: read on
-        }
-        let bytes: &[u8] = &head;
-        if let Some(line) = bare_carriage_return(bytes) {
-            return Err(ReadError::BareCarriageReturn { path: p.clone(), line });
-        }
-        let (header, start) = header_of(bytes, s, &p, &mut line_no)?;
-        // quoting is on when the header or the first data line holds a quote
-        let first_data = bytes[start..].split(|b| *b == b'\n').next().unwrap_or_default();
-        let quoted = bytes[..start].contains(&b'"') || first_data.contains(&b'"');
-        if s.decimal_comma && s.separator == b',' && !quoted {
-            return Err(ReadError::DecimalCommaSeparator { path: p.clone() });
-        }
-        layout = Some(make_layout(&header, s, &p, quoted)?);
-        out.header = header;
-        // room for the whole file, from the first block's bytes per line; zeroed memory is
-        // mapped lazily, so the parsing threads touch it first, in parallel
-        let lines = memchr::memchr_iter(b'\n', &bytes[start..]).count().max(1);
-        let per_line = (bytes.len() - start).max(1) as f64 / lines as f64;
-        let estimate = ((total_bytes as f64 / per_line) * 1.02) as usize + 16;
-        out.lines = vec![0; estimate];
-        out.wall_ms = vec![0; estimate];
-        for v in out.values.iter_mut() {
-            *v = vec![0.0; estimate];
-        }
-        first = Some((block, start));
-        break;
-    }
-    let Some(layout) = layout else {
+    let Some((layout, head, start, at, mut line_no)) = read_header(&blocks, s, &p, total_bytes, &mut out)? else {
         return Err(ReadError::NoRows {
             path: p.clone(),
-            after: line_no,
+            after: 0,
         });
     };
-    let (first, start) = first.expect("set with the layout");
     if head.len() > start {
         let split = split_block(&head[start..], &layout, s);
         line_no = take_block(&head[start..], split, line_no, &layout, s, &p, &mut out, &mut filled)?;
     }
     drop(head);
-    progress(first.at);
+    progress(at);
 
     // the rest: polars splits the next block on its own thread while this one is taken in
     let layout = Arc::new(layout);
@@ -586,6 +546,64 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
         path: p.clone(),
         source: std::io::Error::other("reading thread failed"),
     })?;
+    finish(out, filled, &p, line_no)
+}
+
+/// The header and layout, from the first block(s): returns the layout, the bytes read so far,
+/// where the data start in them, the file offset reached and the lines taken; `None` when the
+/// file ends before its header. Sizes `out`'s row storage for the whole file.
+#[allow(clippy::type_complexity)]
+fn read_header(
+    blocks: &std::sync::mpsc::Receiver<std::io::Result<Block>>,
+    s: &ReadSettings,
+    p: &str,
+    total_bytes: u64,
+    out: &mut RawSeries,
+) -> Result<Option<(Layout, Vec<u8>, usize, u64, usize)>, ReadError> {
+    let mut head: Vec<u8> = Vec::new();
+    for block in blocks {
+        let block = block.map_err(|source| ReadError::Io {
+            path: p.to_string(),
+            source,
+        })?;
+        head.extend_from_slice(&block.bytes[..block.end]);
+        if !block.eof && memchr::memchr_iter(b'\n', &head).count() <= s.skip_lines + usize::from(s.has_header) {
+            continue; // not even the header yet: read on
+        }
+        if let Some(line) = bare_carriage_return(&head) {
+            return Err(ReadError::BareCarriageReturn {
+                path: p.to_string(),
+                line,
+            });
+        }
+        let mut line_no = 0;
+        let (header, start) = header_of(&head, s, p, &mut line_no)?;
+        // quoting is on when the header or the first data line holds a quote
+        let first_data = head[start..].split(|b| *b == b'\n').next().unwrap_or_default();
+        let quoted = head[..start].contains(&b'"') || first_data.contains(&b'"');
+        if s.decimal_comma && s.separator == b',' && !quoted {
+            return Err(ReadError::DecimalCommaSeparator { path: p.to_string() });
+        }
+        let layout = make_layout(&header, s, p, quoted)?;
+        out.header = header;
+        // room for the whole file, from the first block's bytes per line; zeroed memory is
+        // mapped lazily, so the parsing threads touch it first, in parallel
+        let lines = memchr::memchr_iter(b'\n', &head[start..]).count().max(1);
+        let per_line = (head.len() - start).max(1) as f64 / lines as f64;
+        let estimate = ((total_bytes as f64 / per_line) * 1.02) as usize + 16;
+        out.lines = vec![0; estimate];
+        out.wall_ms = vec![0; estimate];
+        for v in out.values.iter_mut() {
+            *v = vec![0.0; estimate];
+        }
+        return Ok(Some((layout, head, start, block.at, line_no)));
+    }
+    Ok(None)
+}
+
+/// The rows read: unreadable rows in line order, storage cut to the rows filled; an error when
+/// there are none.
+fn finish(mut out: RawSeries, filled: usize, p: &str, line_no: usize) -> Result<RawSeries, ReadError> {
     out.unreadable.sort_by_key(|u| u.0);
     out.lines.truncate(filled);
     out.wall_ms.truncate(filled);
@@ -594,7 +612,7 @@ pub fn read_logger(path: &Path, s: &ReadSettings, mut progress: impl FnMut(u64))
     }
     if out.lines.is_empty() {
         return Err(ReadError::NoRows {
-            path: p.clone(),
+            path: p.to_string(),
             after: line_no,
         });
     }
@@ -838,7 +856,61 @@ fn take_block(
 ) -> Result<usize, ReadError> {
     let first_line = before + 1;
     let (n_lines, split) = split;
-    let Split { times, values, long } = split.map_err(|failure| match failure {
+    let Split { times, values, long } = split.map_err(|f| split_error(f, p, first_line, n_lines))?;
+    let base = *filled;
+    let top = base + n_lines;
+    ensure_room(out, top);
+    let shares = {
+        let lines = &mut out.lines[base..top];
+        let wall = &mut out.wall_ms[base..top];
+        let vals: Vec<&mut [f64]> = out.values.iter_mut().map(|v| &mut v[base..top]).collect();
+        parse_rows(&times, &values, layout, s, first_line as u32, lines, wall, vals)
+    };
+    *filled = top;
+
+    // rows polars could not settle: read their fields again from the line's bytes
+    let mut time_failed: Vec<u32> = Vec::new();
+    let mut recheck: Vec<u32> = Vec::new();
+    for sh in shares {
+        out.empty_times += sh.empty_times;
+        time_failed.extend(sh.time_failed);
+        recheck.extend(sh.recheck);
+    }
+    mark_long_lines(out, &long, base, first_line, layout.header_fields);
+    let long_rows: Vec<u32> = long.iter().map(|l| l.0).collect();
+    time_failed.retain(|k| long_rows.binary_search(k).is_err());
+    recheck.retain(|k| long_rows.binary_search(k).is_err());
+    if time_failed.is_empty() && recheck.is_empty() {
+        return Ok(before + n_lines);
+    }
+    let again = Recheck::new(block, n_lines, layout, s, first_line, base);
+    let mut rows: Vec<u32> = time_failed.iter().chain(&recheck).copied().collect();
+    rows.sort_unstable();
+    rows.dedup();
+    let mut remove = vec![false; 0];
+    for &k in &rows {
+        let time_bad = time_failed.binary_search(&k).is_ok();
+        if again.row(k as usize, time_bad, out) {
+            if remove.is_empty() {
+                remove = vec![false; n_lines];
+            }
+            remove[k as usize] = true;
+        }
+    }
+    if !remove.is_empty() {
+        let kept = compact(&mut out.lines[base..top], &remove);
+        compact(&mut out.wall_ms[base..top], &remove);
+        for v in out.values.iter_mut() {
+            compact(&mut v[base..top], &remove);
+        }
+        *filled = base + kept;
+    }
+    Ok(before + n_lines)
+}
+
+/// The read error of a block that could not be split.
+fn split_error(failure: SplitFailure, p: &str, first_line: usize, n_lines: usize) -> ReadError {
+    match failure {
         SplitFailure::Polars(message) => ReadError::Polars {
             path: p.to_string(),
             from: first_line,
@@ -849,12 +921,12 @@ fn take_block(
             path: p.to_string(),
             line: first_line + k,
         },
-    })?;
+    }
+}
 
-    let base = *filled;
-    let top = base + n_lines;
+/// Room for `top` rows: more lines than estimated grow the storage by a quarter.
+fn ensure_room(out: &mut RawSeries, top: usize) {
     if out.lines.len() < top {
-        // more lines than estimated: grow by a quarter
         let len = top.max(out.lines.len() + out.lines.len() / 4);
         out.lines.resize(len, 0);
         out.wall_ms.resize(len, 0);
@@ -862,83 +934,82 @@ fn take_block(
             v.resize(len, 0.0);
         }
     }
-    let shares = {
-        let lines = &mut out.lines[base..top];
-        let wall = &mut out.wall_ms[base..top];
-        let vals: Vec<&mut [f64]> = out.values.iter_mut().map(|v| &mut v[base..top]).collect();
-        parse_rows(&times, &values, layout, s, first_line as u32, lines, wall, vals)
-    };
-    *filled = top;
+}
 
-    // rows polars could not settle: read their fields again from the line's bytes
-    let mut empty_times = 0;
-    let mut time_failed: Vec<u32> = Vec::new();
-    let mut recheck: Vec<u32> = Vec::new();
-    for sh in shares {
-        empty_times += sh.empty_times;
-        time_failed.extend(sh.time_failed);
-        recheck.extend(sh.recheck);
-    }
-    out.empty_times += empty_times;
-    // lines with more fields than the header: no field of theirs is trusted
-    for &(k, n) in &long {
+/// Lines with more fields than the header: no field of theirs is trusted, and each is listed.
+fn mark_long_lines(out: &mut RawSeries, long: &[(u32, usize)], base: usize, first_line: usize, header_fields: usize) {
+    for &(k, n) in long {
         for v in out.values.iter_mut() {
             v[base + k as usize] = f64::NAN;
         }
         out.unreadable.push((
             first_line as u32 + k,
-            format!(
-                "{n} fields where the header has {}: not read (is the separator or the decimal mark right?)",
-                layout.header_fields
-            ),
+            format!("{n} fields where the header has {header_fields}: not read (is the separator or the decimal mark right?)"),
         ));
     }
-    let long_rows: Vec<u32> = long.iter().map(|l| l.0).collect();
-    time_failed.retain(|k| long_rows.binary_search(k).is_err());
-    recheck.retain(|k| long_rows.binary_search(k).is_err());
-    if time_failed.is_empty() && recheck.is_empty() {
-        return Ok(before + n_lines);
+}
+
+/// Reading fields of a block's lines again from their bytes, with flumerate's own rule.
+struct Recheck<'a> {
+    block: &'a [u8],
+    starts: Vec<usize>,
+    layout: &'a Layout,
+    s: &'a ReadSettings,
+    first_line: usize,
+    base: usize,
+}
+
+impl<'a> Recheck<'a> {
+    fn new(
+        block: &'a [u8],
+        n_lines: usize,
+        layout: &'a Layout,
+        s: &'a ReadSettings,
+        first_line: usize,
+        base: usize,
+    ) -> Self {
+        let mut starts = Vec::with_capacity(n_lines + 1);
+        starts.push(0);
+        starts.extend(memchr::memchr_iter(b'\n', block).map(|i| i + 1));
+        if starts.len() == n_lines {
+            starts.push(block.len());
+        }
+        Self {
+            block,
+            starts,
+            layout,
+            s,
+            first_line,
+            base,
+        }
     }
-    let mut starts = Vec::with_capacity(n_lines + 1);
-    starts.push(0);
-    starts.extend(memchr::memchr_iter(b'\n', block).map(|i| i + 1));
-    if starts.len() == n_lines {
-        starts.push(block.len());
-    }
-    let line_text = |k: usize| -> &[u8] {
-        let l = &block[starts[k]..starts[k + 1]];
+
+    /// Line `k` of the block without its line end.
+    fn line_text(&self, k: usize) -> &'a [u8] {
+        let l = &self.block[self.starts[k]..self.starts[k + 1]];
         let l = l.strip_suffix(b"\n").unwrap_or(l);
         l.strip_suffix(b"\r").unwrap_or(l)
-    };
-    let field = |k: usize, idx: usize| -> String {
-        let text = fields(line_text(k), s.separator, layout.quoted)
+    }
+
+    /// Field `idx` of line `k`, unquoted.
+    fn field(&self, k: usize, idx: usize) -> String {
+        let text = fields(self.line_text(k), self.s.separator, self.layout.quoted)
             .nth(idx)
             .unwrap_or_default();
         String::from_utf8_lossy(&unquote(text)).into_owned()
-    };
-    let mut rows: Vec<u32> = time_failed.iter().chain(&recheck).copied().collect();
-    rows.sort_unstable();
-    rows.dedup();
-    let mut remove = vec![false; 0];
-    for &k in &rows {
-        let k = k as usize;
-        let time_bad = time_failed.binary_search(&(k as u32)).is_ok();
-        let time_text = if time_bad {
-            field(k, layout.time_idx)
-        } else {
-            String::new()
-        };
-        let empty_time = time_bad && time_text.trim().is_empty();
-        let mut bad: Option<String> = None;
-        let mut all_empty = empty_time;
-        for (c, &idx) in layout.value_idx.iter().enumerate() {
-            let v = out.values[c][base + k];
-            let st = if layout.settled(v) {
+    }
+
+    /// Reads row `k`'s values again where polars did not settle them; returns what is wrong
+    /// with them, and whether every value is empty.
+    fn values(&self, k: usize, out: &mut RawSeries, all_empty: bool) -> (Option<String>, bool) {
+        let (mut bad, mut all_empty): (Option<String>, bool) = (None, all_empty);
+        for (c, &idx) in self.layout.value_idx.iter().enumerate() {
+            let st = if self.layout.settled(out.values[c][self.base + k]) {
                 FieldState::Ok
             } else {
-                let raw = field(k, idx);
-                let (v, st) = parse_value(&raw, s.decimal_comma, &s.missing);
-                out.values[c][base + k] = v;
+                let raw = self.field(k, idx);
+                let (v, st) = parse_value(&raw, self.s.decimal_comma, &self.s.missing);
+                out.values[c][self.base + k] = v;
                 match st {
                     FieldState::Empty => out.empty_fields[c] += 1,
                     FieldState::Sentinel => out.sentinel_fields[c] += 1,
@@ -952,19 +1023,28 @@ fn take_block(
             };
             all_empty &= st == FieldState::Empty;
         }
+        (bad, all_empty)
+    }
+
+    /// Reads row `k` again (its time too when `time_bad`) and lists what is unreadable; returns
+    /// true when the row is a blank line (not a record), to be removed.
+    fn row(&self, k: usize, time_bad: bool, out: &mut RawSeries) -> bool {
+        let time_text = if time_bad {
+            self.field(k, self.layout.time_idx)
+        } else {
+            String::new()
+        };
+        let empty_time = time_bad && time_text.trim().is_empty();
+        let (mut bad, all_empty) = self.values(k, out, empty_time);
         // a row whose fields are all empty may be a blank line: blank lines are not records
-        if all_empty && line_text(k).iter().all(|b| b.is_ascii_whitespace()) {
-            if remove.is_empty() {
-                remove = vec![false; n_lines];
-            }
-            remove[k] = true;
-            out.blank_lines.push((first_line + k) as u32);
+        if all_empty && self.line_text(k).iter().all(|b| b.is_ascii_whitespace()) {
+            out.blank_lines.push((self.first_line + k) as u32);
             // a blank line was counted as a row with an empty time and empty values: undo
             out.empty_times -= 1;
-            for c in 0..layout.value_idx.len() {
+            for c in 0..self.layout.value_idx.len() {
                 out.empty_fields[c] -= 1;
             }
-            continue;
+            return true;
         }
         if time_bad && !all_empty {
             let msg = if empty_time {
@@ -975,18 +1055,10 @@ fn take_block(
             bad = Some(bad.map_or(msg.clone(), |b| format!("{msg}; {b}")));
         }
         if let Some(b) = bad {
-            out.unreadable.push(((first_line + k) as u32, b));
+            out.unreadable.push(((self.first_line + k) as u32, b));
         }
+        false
     }
-    if !remove.is_empty() {
-        let kept = compact(&mut out.lines[base..top], &remove);
-        compact(&mut out.wall_ms[base..top], &remove);
-        for v in out.values.iter_mut() {
-            compact(&mut v[base..top], &remove);
-        }
-        *filled = base + kept;
-    }
-    Ok(before + n_lines)
 }
 
 /// Moves the entries not marked in `remove` to the front of `v`, in order; returns how many.
@@ -1045,18 +1117,57 @@ fn parse_rows(
             value_parts[i].push(piece);
         }
     }
-    let work = |from: usize, lines: &mut [u32], wall: &mut [i64], mut vs: Vec<&mut [f64]>| -> Share {
+    let block = BlockColumns {
+        times,
+        values,
+        layout,
+        s,
+        first_line,
+    };
+    if per >= n {
+        let vs: Vec<&mut [f64]> = value_parts.into_iter().flatten().collect();
+        return vec![block.parse_share(0, lines, wall, vs)];
+    }
+    std::thread::scope(|scope| {
+        let block = &block;
+        let handles: Vec<_> = lines
+            .chunks_mut(per)
+            .zip(wall.chunks_mut(per))
+            .zip(value_parts)
+            .enumerate()
+            .map(|(i, ((l, w), vs))| scope.spawn(move || block.parse_share(i * per, l, w, vs)))
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| h.join().expect("row parsing does not panic"))
+            .collect()
+    })
+}
+
+/// A block's columns as polars split them, with what reading them needs.
+struct BlockColumns<'a> {
+    times: &'a [Utf8ViewArray],
+    values: &'a [Vec<PrimitiveArray<f64>>],
+    layout: &'a Layout,
+    s: &'a ReadSettings,
+    first_line: u32,
+}
+
+impl BlockColumns<'_> {
+    /// One thread's share of the rows, from row `from`: line numbers, times parsed (a day cache
+    /// per format) and values taken over; rows whose fields polars did not settle are noted.
+    fn parse_share(&self, from: usize, lines: &mut [u32], wall: &mut [i64], mut vs: Vec<&mut [f64]>) -> Share {
         let to = from + wall.len();
         for (k, l) in lines.iter_mut().enumerate() {
-            *l = first_line + (from + k) as u32;
+            *l = self.first_line + (from + k) as u32;
         }
         let mut sh = Share::default();
-        let mut caches = vec![DayCache::default(); s.formats.len()];
+        let mut caches = vec![DayCache::default(); self.s.formats.len()];
         let mut j = 0;
-        for (a, lo, hi) in rows_of(times, from, to) {
+        for (a, lo, hi) in rows_of(self.times, from, to) {
             for i in lo..hi {
                 let text = if a.is_valid(i) { a.value(i) } else { "" };
-                match parse_any_cached(&s.formats, text, &mut caches) {
+                match parse_any_cached(&self.s.formats, text, &mut caches) {
                     Some(w) => wall[j] = w,
                     None => {
                         wall[j] = NO_TIME;
@@ -1067,7 +1178,7 @@ fn parse_rows(
                 j += 1;
             }
         }
-        for (c, arrays) in values.iter().enumerate() {
+        for (c, arrays) in self.values.iter().enumerate() {
             let out = &mut vs[c];
             let mut j = 0;
             for (a, lo, hi) in rows_of(arrays, from, to) {
@@ -1083,7 +1194,7 @@ fn parse_rows(
                 j += vals.len();
             }
             for (k, &v) in out.iter().enumerate() {
-                if !layout.settled(v) {
+                if !self.layout.settled(v) {
                     sh.recheck.push((from + k) as u32);
                 }
             }
@@ -1091,24 +1202,7 @@ fn parse_rows(
         sh.recheck.sort_unstable();
         sh.recheck.dedup();
         sh
-    };
-    if per >= n {
-        let vs: Vec<&mut [f64]> = value_parts.into_iter().flatten().collect();
-        return vec![work(0, lines, wall, vs)];
     }
-    std::thread::scope(|scope| {
-        let handles: Vec<_> = lines
-            .chunks_mut(per)
-            .zip(wall.chunks_mut(per))
-            .zip(value_parts)
-            .enumerate()
-            .map(|(i, ((l, w), vs))| scope.spawn(move || work(i * per, l, w, vs)))
-            .collect();
-        handles
-            .into_iter()
-            .map(|h| h.join().expect("row parsing does not panic"))
-            .collect()
-    })
 }
 
 #[cfg(test)]
