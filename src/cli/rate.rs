@@ -5,11 +5,10 @@ use std::process::ExitCode;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use flumerate::rating::{RatingEquation, RatingModel, RatingTable};
-use flumerate::report::rating::{RatingReport, UncertaintyColumns};
+use flumerate::rating::RatingModel;
+use flumerate::report::rating::{RateOptions, Rated};
 use flumerate::station::Station;
-use flumerate::tailwater::{modular_limit_at, Exit, Tailwater};
-use flumerate::uncertainty::{departure_from_gum, monte_carlo, GumModel, Inputs, McOptions};
+use flumerate::uncertainty::McOptions;
 use flumerate::units::Units;
 
 /// Uncertainty methods.
@@ -21,10 +20,6 @@ pub enum UncertaintyMethod {
     /// also Monte Carlo (JCGM 101): adds the mc_low and mc_high columns
     Mc,
 }
-
-/// A Monte Carlo interval departing from the GUM one by more than this fraction of its width is
-/// reported (issue 3; JCGM 101 §8 compares the two intervals' end points).
-const MC_DEPARTURE_WARNING: f64 = 0.05;
 
 use super::{output::emit_all, OutputArgs, UnitsArg};
 
@@ -91,70 +86,19 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         &[("-o", a.out.output.as_deref()), ("--plot", a.plot.as_deref())],
     )?;
     let plot_format = super::output::plot_format(a.plot.as_deref())?;
-    let (station, model) = load_model(&a.station)?;
+    let station = Station::load(&a.station)?;
     let units: Units = a.units.into();
-    let heads: Vec<f64> = a.heads.heads_m(&station.range, units)?;
-    let mut table = RatingTable::compute(&model, &heads);
-
-    let inputs = Inputs::from_station(&station.uncertainty, &station.structure);
-    let gum = GumModel::new(&model, inputs.clone()).context("preparing the uncertainty analysis")?;
-    let points: Vec<_> = table
-        .rows
-        .iter()
-        .map(|r| r.point.and_then(|_| gum.point(r.head_m).ok()))
-        .collect();
-    let monte = if a.uncertainty == UncertaintyMethod::Mc {
-        let opts = McOptions {
+    let options = RateOptions {
+        heads_m: a.heads.heads_m(&station.range, units)?,
+        monte_carlo: (a.uncertainty == UncertaintyMethod::Mc).then(|| McOptions {
             draws: a.draws,
             seed: a.seed,
             threads: a.threads.unwrap_or(McOptions::default().threads),
-        };
-        let rows = monte_carlo(&model, &inputs, &heads, &opts)?;
-        for ((row, mc), gp) in table.rows.iter_mut().zip(&rows).zip(&points) {
-            if let (Some(mc), Some(gp)) = (mc, gp) {
-                let d = departure_from_gum(mc, gp.discharge_m3s, gp.u_rel * gp.discharge_m3s);
-                if d > MC_DEPARTURE_WARNING {
-                    row.notes.push(format!(
-                        "Monte Carlo interval departs from GUM by {:.0} % of its width",
-                        d * 100.0
-                    ));
-                }
-            }
-        }
-        Some((rows, opts.draws, opts.seed))
-    } else {
-        None
+        }),
+        budget: a.budget,
     };
-    let columns = UncertaintyColumns {
-        inputs,
-        u95_pct: points.iter().map(|p| p.map_or(f64::NAN, |p| p.u95_pct())).collect(),
-        shares: a
-            .budget
-            .then(|| points.iter().map(|p| p.map_or([f64::NAN; 4], |p| p.shares)).collect()),
-        monte_carlo: monte,
-    };
-    let equation = RatingEquation::for_range(&model, station.range.min_head_m, station.range.max_head_m);
-    let exit = Exit::from(&station.exit);
-    let tailwater = station
-        .tailwater
-        .clone()
-        .map(|t| Tailwater::new(t, station.structure.gravity_m_s2));
-    let modular: Vec<(f64, f64)> = table
-        .rows
-        .iter()
-        .map(|r| match r.point {
-            Some(p) if p.discharge_m3s > 0.0 => {
-                let (ml, _, level) = modular_limit_at(&model, &exit, tailwater.as_ref(), &p);
-                (ml, level)
-            }
-            _ => (f64::NAN, f64::NAN),
-        })
-        .collect();
-    let report = RatingReport {
-        uncertainty: Some(&columns),
-        modular: Some(&modular),
-        ..RatingReport::new(&station.name, &station.source, &model, &table, equation.as_ref(), units)
-    };
+    let rated = Rated::compute(&station, &options).with_context(|| format!("{}: rating", a.station.display()))?;
+    let report = rated.report(&station, units);
     let bytes = match a.format {
         TableFormat::Text => report.to_text(),
         TableFormat::Csv => report.to_csv()?,
@@ -169,7 +113,7 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         outputs.push((Some(path.as_path()), &img[..]));
     }
     emit_all(outputs)?;
-    Ok(if a.strict && table.invalid_rows() > 0 {
+    Ok(if a.strict && rated.table.invalid_rows() > 0 {
         ExitCode::from(1)
     } else {
         ExitCode::SUCCESS

@@ -1,5 +1,6 @@
 //! Writers: each turns a computed result into bytes; the caller picks the destination.
 
+pub mod check;
 pub mod plot;
 pub mod rating;
 pub mod sheet;

@@ -3,6 +3,9 @@
 //! CSV and JSON carry every number at full precision (Rust's shortest round-trip form, which is
 //! exact and has up to 17 significant digits); text rounds for reading and ends with the cautions.
 
+mod rated;
+
+pub use rated::{RateError, RateOptions, Rated, MC_DEPARTURE_WARNING};
 use serde_json::{json, Map, Value};
 
 use super::{sig, wrap, CAUTIONS};
