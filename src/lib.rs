@@ -62,6 +62,8 @@
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
+#![warn(missing_docs)]
+
 pub mod files;
 pub mod hydraulics;
 pub mod interp;

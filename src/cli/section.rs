@@ -1,18 +1,14 @@
-//! `flumerate section`: one cross-section's critical depth and energy, Froude number at a depth,
-//! alternate depths at a specific energy and normal depth. Inputs and outputs in the chosen unit
-//! system; the computation is SI inside.
+//! `flumerate section`: builds one cross-section from its arguments and prints its report
+//! ([`flumerate::report::section`]: critical depth and energy, Froude number at a depth, alternate
+//! depths at a specific energy, normal depth) where `--output` says.
 
 use std::process::ExitCode;
 
 use anyhow::{bail, Context};
 use clap::{Args, ValueEnum};
-use flumerate::hydraulics::{
-    alternate_depths_m, critical_depths_m, froude_number, normal_depths_m, specific_energy_m, PointsSection, Section,
-    STANDARD_GRAVITY_M_S2,
-};
-use flumerate::report::sig;
+use flumerate::hydraulics::{PointsSection, Section};
+use flumerate::report::section::{SectionError, SectionQuery, SectionReport};
 use flumerate::units::Units;
-use serde_json::{json, Map, Value};
 
 use super::{output::emit, OutputArgs, UnitsArg};
 
@@ -141,169 +137,33 @@ fn build_section(a: &SectionArgs, units: Units) -> anyhow::Result<Section> {
 
 pub fn run(a: SectionArgs) -> anyhow::Result<ExitCode> {
     let units: Units = a.units.into();
-    let g = STANDARD_GRAVITY_M_S2;
+    let manning = match (a.manning_n, a.slope) {
+        (Some(n), Some(s)) => Some((n, s)),
+        (None, None) => None,
+        _ => bail!("the normal depth needs both --manning-n and --slope"),
+    };
+    let query = SectionQuery {
+        discharge: a.discharge,
+        alpha: a.alpha,
+        depth: a.depth,
+        energy: a.energy,
+        manning,
+    };
     if !(a.alpha.is_finite() && (1.0..=2.0).contains(&a.alpha)) {
-        bail!(
-            "--alpha {} is out of range: the Coriolis coefficient is between 1.0 and 2.0",
-            a.alpha
-        );
+        // checked before the section is built, so a bad --alpha is named first
+        return Err(SectionError::Alpha(a.alpha).into());
     }
     let section = build_section(&a, units)?;
-    let q = units.discharge_to_si(a.discharge);
-    if !(q.is_finite() && q > 0.0) {
-        bail!("--discharge must be greater than zero (got {})", a.discharge);
-    }
-    let (l, d, ar, v) = (
-        units.length_suffix(),
-        units.discharge_suffix(),
-        units.area_suffix(),
-        units.velocity_suffix(),
-    );
-    let depths = critical_depths_m(&section, q, a.alpha, g)?;
-    let mut warnings: Vec<String> = Vec::new();
-    let mut doc = Map::new();
-    doc.insert("shape".into(), json!(format!("{:?}", a.shape).to_lowercase()));
-    doc.insert(
-        "units".into(),
-        json!(match units {
-            Units::Si => "si",
-            Units::Us => "us",
-        }),
-    );
-    doc.insert(format!("discharge_{d}"), json!(a.discharge));
-    let len_out = |m: f64| json!(units.length_from_si(m));
-    if depths.len() == 1 {
-        let yc = depths[0];
-        let area = section.area_m2(yc);
-        doc.insert(format!("critical_depth_{l}"), len_out(yc));
-        doc.insert(
-            format!("critical_energy_{l}"),
-            len_out(specific_energy_m(&section, yc, q, a.alpha, g)),
-        );
-        doc.insert(format!("critical_area_{ar}"), json!(units.area_from_si(area)));
-        doc.insert(format!("critical_top_width_{l}"), len_out(section.top_width_m(yc)));
-        doc.insert(format!("critical_velocity_{v}"), len_out(q / area));
-    } else {
-        warnings.push(format!(
-            "this compound section has {} critical depths for this discharge ({}): the control can switch between them; none is picked",
-            depths.len(),
-            depths
-                .iter()
-                .map(|y| format!("{} {}", sig(units.length_from_si(*y), 6), units.symbols().0))
-                .collect::<Vec<_>>()
-                .join(", ")
-        ));
-        doc.insert(format!("critical_depth_{l}"), Value::Null);
-        let e_min = depths
-            .iter()
-            .map(|&y| specific_energy_m(&section, y, q, a.alpha, g))
-            .fold(f64::INFINITY, f64::min);
-        doc.insert(format!("critical_energy_{l}"), len_out(e_min));
-    }
-    doc.insert(
-        format!("critical_depths_{l}"),
-        Value::Array(depths.iter().map(|&y| len_out(y)).collect()),
-    );
-    if let Some(depth) = a.depth {
-        let y = units.length_to_si(depth);
-        if !(y.is_finite() && y > 0.0) {
-            bail!("--depth must be greater than zero (got {depth})");
-        }
-        if let Some(full) = section.full_depth_m() {
-            if y >= full {
-                bail!(
-                    "--depth {depth} is at or above the crown of the pipe ({} {}): the pipe flows full there and has no free surface, so no Froude number or specific energy\n  fix: give a depth below the crown",
-                    sig(units.length_from_si(full), 6),
-                    units.symbols().0
-                );
-            }
-        }
-        doc.insert(format!("depth_{l}"), json!(depth));
-        doc.insert("froude".into(), json!(froude_number(&section, y, q, g)));
-        doc.insert(
-            format!("specific_energy_{l}"),
-            len_out(specific_energy_m(&section, y, q, a.alpha, g)),
-        );
-    }
-    if let Some(energy) = a.energy {
-        let e = units.length_to_si(energy);
-        let alt = alternate_depths_m(&section, e, q, a.alpha, g)
-            .with_context(|| format!("alternate depths at --energy {energy}"))?;
-        doc.insert(format!("energy_{l}"), json!(energy));
-        doc.insert(
-            format!("alternate_depths_{l}"),
-            json!({
-                "subcritical": units.length_from_si(alt.subcritical_m),
-                "supercritical": units.length_from_si(alt.supercritical_m),
-            }),
-        );
-    }
-    match (a.manning_n, a.slope) {
-        (Some(n), Some(s)) => {
-            let yn = normal_depths_m(&section, q, n, s).context("normal depth")?;
-            doc.insert(format!("normal_depth_{l}"), len_out(yn[0]));
-            doc.insert(
-                format!("normal_depths_{l}"),
-                Value::Array(yn.iter().map(|&y| len_out(y)).collect()),
-            );
-            if yn.len() > 1 {
-                warnings.push(format!(
-                    "the pipe carries this discharge in uniform flow at two depths, {} and {} {}: near full, flow can switch between them (and the pipe may surcharge)",
-                    sig(units.length_from_si(yn[0]), 6),
-                    sig(units.length_from_si(yn[1]), 6),
-                    units.symbols().0
-                ));
-            }
-        }
-        (None, None) => {}
-        _ => bail!("the normal depth needs both --manning-n and --slope"),
-    }
-    doc.insert("warnings".into(), json!(warnings));
-
+    let shape = format!("{:?}", a.shape).to_lowercase();
+    let report = SectionReport::compute(&section, &shape, &query, units)?;
     let bytes = match a.format {
-        ReportFormat::Json => {
-            let mut b = serde_json::to_vec_pretty(&Value::Object(doc))?;
-            b.push(b'\n');
-            b
-        }
-        ReportFormat::Text => text(&doc, units).into_bytes(),
+        ReportFormat::Json => report.to_json()?,
+        ReportFormat::Text => report.to_text().into_bytes(),
     };
     emit(&bytes, a.out.output.as_deref())?;
-    Ok(if warnings.is_empty() {
+    Ok(if report.warnings.is_empty() {
         ExitCode::SUCCESS
     } else {
         ExitCode::from(1)
     })
-}
-
-/// Readable rendering of the JSON document: one `key: value` line each, numbers to 6 figures.
-fn text(doc: &Map<String, Value>, units: Units) -> String {
-    let (lu, qu) = units.symbols();
-    let mut s = format!("flumerate section (lengths in {lu}, discharge in {qu}, g = {STANDARD_GRAVITY_M_S2} m/s²)\n");
-    for (k, v) in doc {
-        let shown = match v {
-            Value::Number(n) => sig(n.as_f64().unwrap_or(f64::NAN), 6),
-            Value::Array(items) if k != "warnings" => items
-                .iter()
-                .map(|i| sig(i.as_f64().unwrap_or(f64::NAN), 6))
-                .collect::<Vec<_>>()
-                .join(", "),
-            Value::Array(items) => {
-                if items.is_empty() {
-                    continue;
-                }
-                items.iter().filter_map(|i| i.as_str()).collect::<Vec<_>>().join("\n  ")
-            }
-            Value::Object(o) => o
-                .iter()
-                .map(|(k, v)| format!("{k} {}", sig(v.as_f64().unwrap_or(f64::NAN), 6)))
-                .collect::<Vec<_>>()
-                .join(", "),
-            Value::String(t) => t.clone(),
-            Value::Null => "(see warnings)".into(),
-            Value::Bool(b) => b.to_string(),
-        };
-        s.push_str(&format!("{k:<28} {shown}\n"));
-    }
-    s
 }

@@ -7,7 +7,7 @@
 //! (Chow 1959 §5-6). Every solver brackets its root, so it converges for valid input.
 
 use super::roots::{brent, newton_bracketed, quadratic_roots};
-use super::section::Section;
+use super::section::{PointsSection, Section};
 
 /// Standard gravity (m/s²), CGPM 1901; the default everywhere in flumerate.
 pub const STANDARD_GRAVITY_M_S2: f64 = 9.80665;
@@ -286,45 +286,49 @@ pub fn critical_depths_m(section: &Section, discharge_m3s: f64, alpha: f64, g: f
             let hi = (q2 / (g * diameter_m * diameter_m)).cbrt() + diameter_m;
             single(brent(phi, diameter_m * 1e-9, hi, 0.0)?)
         }
-        Section::Points(p) => {
-            // Inside a slice (u = y − y0) A = a0 + t0·u + kt·u²/2 and T = t0 + kt·u, so
-            // ψ(u) = gA³ − αQ²T has dψ/du = 3gA²T − αQ²·kt, which only rises (A, T ≥ 0 and
-            // rising). ψ therefore falls, then rises: at most one turning point per slice,
-            // found by bracketing, leaving two monotone pieces to bracket for roots.
-            let mut roots = Vec::new();
-            for (y0, y1, a0, t0, kt) in p.slices() {
-                let area = |u: f64| a0 + t0 * u + 0.5 * kt * u * u;
-                let psi = |u: f64| g * area(u).powi(3) - q2 * (t0 + kt * u);
-                let dpsi = |u: f64| 3.0 * g * area(u).powi(2) * (t0 + kt * u) - q2 * kt;
-                let len = if y1.is_finite() {
-                    y1 - y0
-                } else {
-                    // the last slice has constant width and growing area: double until ψ > 0
-                    let mut hi = y0.max(1.0);
-                    while psi(hi) <= 0.0 && hi < 1e9 {
-                        hi *= 2.0;
-                    }
-                    hi
-                };
-                let mut cuts = vec![0.0, len];
-                if dpsi(0.0) < 0.0 && dpsi(len) > 0.0 {
-                    cuts.insert(1, brent(dpsi, 0.0, len, 0.0)?);
-                }
-                for w in cuts.windows(2) {
-                    let (lo, hi) = (w[0], w[1]);
-                    // only − to + crossings: there E(y) has a local minimum (dE/dy = 1 − Fr²)
-                    if psi(lo) < 0.0 && psi(hi) >= 0.0 {
-                        roots.push(y0 + brent(psi, lo, hi, 0.0)?);
-                    }
-                }
-                // T never decreases with depth in an open section, so a jump in T at a flat
-                // berm only takes ψ from + to −: a local maximum of E, not a critical depth.
-            }
-            roots.sort_by(f64::total_cmp);
-            roots.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * a.abs().max(1.0));
-            Ok(roots)
-        }
+        Section::Points(p) => points_critical_depths_m(p, q2, g),
     }
+}
+
+/// The critical depths of a surveyed section, slice by slice (see [`critical_depths_m`];
+/// `q2` = αQ²).
+fn points_critical_depths_m(p: &PointsSection, q2: f64, g: f64) -> Result<Vec<f64>, FlowError> {
+    // Inside a slice (u = y − y0) A = a0 + t0·u + kt·u²/2 and T = t0 + kt·u, so
+    // ψ(u) = gA³ − αQ²T has dψ/du = 3gA²T − αQ²·kt, which only rises (A, T ≥ 0 and
+    // rising). ψ therefore falls, then rises: at most one turning point per slice,
+    // found by bracketing, leaving two monotone pieces to bracket for roots.
+    let mut roots = Vec::new();
+    for (y0, y1, a0, t0, kt) in p.slices() {
+        let area = |u: f64| a0 + t0 * u + 0.5 * kt * u * u;
+        let psi = |u: f64| g * area(u).powi(3) - q2 * (t0 + kt * u);
+        let dpsi = |u: f64| 3.0 * g * area(u).powi(2) * (t0 + kt * u) - q2 * kt;
+        let len = if y1.is_finite() {
+            y1 - y0
+        } else {
+            // the last slice has constant width and growing area: double until ψ > 0
+            let mut hi = y0.max(1.0);
+            while psi(hi) <= 0.0 && hi < 1e9 {
+                hi *= 2.0;
+            }
+            hi
+        };
+        let mut cuts = vec![0.0, len];
+        if dpsi(0.0) < 0.0 && dpsi(len) > 0.0 {
+            cuts.insert(1, brent(dpsi, 0.0, len, 0.0)?);
+        }
+        for w in cuts.windows(2) {
+            let (lo, hi) = (w[0], w[1]);
+            // only − to + crossings: there E(y) has a local minimum (dE/dy = 1 − Fr²)
+            if psi(lo) < 0.0 && psi(hi) >= 0.0 {
+                roots.push(y0 + brent(psi, lo, hi, 0.0)?);
+            }
+        }
+        // T never decreases with depth in an open section, so a jump in T at a flat
+        // berm only takes ψ from + to −: a local maximum of E, not a critical depth.
+    }
+    roots.sort_by(f64::total_cmp);
+    roots.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * a.abs().max(1.0));
+    Ok(roots)
 }
 
 /// The two depths that carry `discharge_m3s` with specific energy `energy_m`.

@@ -88,10 +88,82 @@ pub struct PointsSection {
     surveyed_top_m: f64,
 }
 
+/// The slice of a surveyed section starting at height `y0` (a vertex height): top width `t0`
+/// and wetted perimeter `p0` at `y0`, and their growth per metre of depth `kt`, `kp` within the
+/// slice. `ends` are the heights of the two end points, above which vertical walls continue the
+/// section.
+fn slice_at(pts: &[(f64, f64)], ends: [f64; 2], y0: f64) -> (f64, f64, f64, f64) {
+    let (mut t0, mut kt, mut p0, mut kp) = (0.0, 0.0, 0.0, 0.0);
+    for s in pts.windows(2) {
+        let ((x1, z1), (x2, z2)) = (s[0], s[1]);
+        let dx = x2 - x1;
+        let len = dx.hypot(z2 - z1);
+        let (zlo, zhi) = (z1.min(z2), z1.max(z2));
+        if zhi <= y0 {
+            // wholly below the slice (a flat segment at y0 is wet just above y0)
+            t0 += dx;
+            p0 += len;
+        } else if zlo <= y0 {
+            // crosses the whole slice: vertex heights are slice boundaries
+            let frac = (y0 - zlo) / (zhi - zlo);
+            t0 += dx * frac;
+            p0 += len * frac;
+            kt += dx / (zhi - zlo);
+            kp += len / (zhi - zlo);
+        }
+    }
+    // vertical walls continue the section above each end point
+    for end in ends {
+        if end <= y0 {
+            p0 += y0 - end;
+            kp += 1.0;
+        }
+    }
+    (t0, kt, p0, kp)
+}
+
 impl PointsSection {
     /// Builds the section from (offset, height) pairs in metres. Heights are taken relative to the
     /// lowest point, so depth 0 is the lowest vertex.
     pub fn new(points: &[(f64, f64)]) -> Result<Self, GeometryError> {
+        let pts = Self::checked_vertices(points)?;
+        let (first, last) = (pts[0], pts[pts.len() - 1]);
+        let zmin = pts.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
+        let pts: Vec<(f64, f64)> = pts.iter().map(|&(x, z)| (x, z - zmin)).collect();
+        let ends = [first.1 - zmin, last.1 - zmin];
+
+        let mut heights: Vec<f64> = pts.iter().map(|p| p.1).collect();
+        heights.sort_by(f64::total_cmp);
+        heights.dedup();
+        let mut bands = Vec::with_capacity(heights.len());
+        let mut area = 0.0;
+        for (i, &y0) in heights.iter().enumerate() {
+            let y1 = heights.get(i + 1).copied().unwrap_or(f64::INFINITY);
+            let (t0, kt, p0, kp) = slice_at(&pts, ends, y0);
+            bands.push(Band {
+                y0,
+                y1,
+                a0: area,
+                t0,
+                kt,
+                p0,
+                kp,
+            });
+            if y1.is_finite() {
+                let du = y1 - y0;
+                area += t0 * du + 0.5 * kt * du * du;
+            }
+        }
+        Ok(Self {
+            surveyed_top_m: ends[0].min(ends[1]),
+            points: pts,
+            bands,
+        })
+    }
+
+    /// The surveyed vertices, finite, left to right, repeats removed, at least three and with
+    /// some width.
+    fn checked_vertices(points: &[(f64, f64)]) -> Result<Vec<(f64, f64)>, GeometryError> {
         for (index, &(x, z)) in points.iter().enumerate() {
             if !x.is_finite() || !z.is_finite() {
                 return Err(GeometryError::NotFinite { index });
@@ -116,65 +188,10 @@ impl PointsSection {
         if pts.len() < 3 {
             return Err(GeometryError::TooFewPoints { count: pts.len() });
         }
-        let (first, last) = (pts[0], pts[pts.len() - 1]);
-        if last.0 - first.0 <= 0.0 {
+        if pts[pts.len() - 1].0 - pts[0].0 <= 0.0 {
             return Err(GeometryError::NoWidth);
         }
-        let zmin = pts.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
-        let pts: Vec<(f64, f64)> = pts.iter().map(|&(x, z)| (x, z - zmin)).collect();
-
-        let mut heights: Vec<f64> = pts.iter().map(|p| p.1).collect();
-        heights.sort_by(f64::total_cmp);
-        heights.dedup();
-        let mut bands = Vec::with_capacity(heights.len());
-        let mut area = 0.0;
-        for (i, &y0) in heights.iter().enumerate() {
-            let y1 = heights.get(i + 1).copied().unwrap_or(f64::INFINITY);
-            let (mut t0, mut kt, mut p0, mut kp) = (0.0, 0.0, 0.0, 0.0);
-            for s in pts.windows(2) {
-                let ((x1, z1), (x2, z2)) = (s[0], s[1]);
-                let dx = x2 - x1;
-                let len = dx.hypot(z2 - z1);
-                let (zlo, zhi) = (z1.min(z2), z1.max(z2));
-                if zhi <= y0 {
-                    // wholly below the slice (a flat segment at y0 is wet just above y0)
-                    t0 += dx;
-                    p0 += len;
-                } else if zlo <= y0 {
-                    // crosses the whole slice: vertex heights are slice boundaries
-                    let frac = (y0 - zlo) / (zhi - zlo);
-                    t0 += dx * frac;
-                    p0 += len * frac;
-                    kt += dx / (zhi - zlo);
-                    kp += len / (zhi - zlo);
-                }
-            }
-            // vertical walls continue the section above each end point
-            for end in [first.1 - zmin, last.1 - zmin] {
-                if end <= y0 {
-                    p0 += y0 - end;
-                    kp += 1.0;
-                }
-            }
-            bands.push(Band {
-                y0,
-                y1,
-                a0: area,
-                t0,
-                kt,
-                p0,
-                kp,
-            });
-            if y1.is_finite() {
-                let du = y1 - y0;
-                area += t0 * du + 0.5 * kt * du * du;
-            }
-        }
-        Ok(Self {
-            surveyed_top_m: (first.1 - zmin).min(last.1 - zmin),
-            points: pts,
-            bands,
-        })
+        Ok(pts)
     }
 
     /// The vertices, with heights measured from the lowest one (m).

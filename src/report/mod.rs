@@ -3,6 +3,7 @@
 pub mod check;
 pub mod plot;
 pub mod rating;
+pub mod section;
 pub mod sheet;
 pub mod tailwater;
 

@@ -1,6 +1,7 @@
 //! Charts as PNG or SVG bytes, drawn with plotters. Text uses DejaVu Sans compiled into the binary
 //! (the `dejavu` crate; Bitstream Vera licence), so charts render on machines with no system fonts.
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::{register_font, FontStyle};
@@ -80,12 +81,8 @@ pub struct XyChart {
     pub caption: String,
 }
 
-fn draw_xy_scaled<DB: DrawingBackend>(chart: &XyChart, root: &DrawingArea<DB, Shift>, k: f64) -> Result<(), PlotError>
-where
-    DB::ErrorType: 'static,
-{
-    let px = |v: f64| (v * k).round() as u32;
-    root.fill(&WHITE).map_err(err)?;
+/// The x and y ranges of a chart's lines, y padded by 5 % (an empty x range widened to 1).
+fn xy_bounds(chart: &XyChart) -> Result<(f64, f64, f64, f64), PlotError> {
     let xs = chart.lines.iter().flat_map(|l| l.points.iter().map(|p| p.0));
     let ys = chart
         .lines
@@ -100,6 +97,56 @@ where
     let pad = 0.05 * (y1 - y0).max(1e-9);
     let (y0, y1) = (y0 - pad, y1 + pad);
     let x1 = if x1 > x0 { x1 } else { x0 + 1.0 };
+    Ok((x0, x1, y0, y1))
+}
+
+/// The shaded x-intervals (one legend entry) and the lines (a legend entry each, when labelled).
+fn draw_xy_series<DB: DrawingBackend>(
+    c: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    chart: &XyChart,
+    y0: f64,
+    y1: f64,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let shade = RGBColor(220, 60, 60).mix(0.18);
+    for (i, &(a, b)) in chart.shaded.iter().enumerate() {
+        let s = c
+            .draw_series(std::iter::once(Rectangle::new([(a, y0), (b, y1)], shade.filled())))
+            .map_err(err)?;
+        if i == 0 {
+            s.label(chart.shaded_label.clone())
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], shade.filled()));
+        }
+    }
+    for line in &chart.lines {
+        let color = line.color;
+        let pts: Vec<(f64, f64)> = line.points.iter().copied().filter(|p| p.1.is_finite()).collect();
+        let series = if line.dashed {
+            c.draw_series(DashedLineSeries::new(pts, 12, 8, color.stroke_width(3)))
+                .map_err(err)?
+        } else {
+            c.draw_series(LineSeries::new(pts, color.stroke_width(3)))
+                .map_err(err)?
+        };
+        // an unlabelled line (the second edge of a band) has no legend entry of its own
+        if !line.label.is_empty() {
+            series
+                .label(line.label.clone())
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(3)));
+        }
+    }
+    Ok(())
+}
+
+fn draw_xy_scaled<DB: DrawingBackend>(chart: &XyChart, root: &DrawingArea<DB, Shift>, k: f64) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let px = |v: f64| (v * k).round() as u32;
+    root.fill(&WHITE).map_err(err)?;
+    let (x0, x1, y0, y1) = xy_bounds(chart)?;
     let root = if chart.title.is_empty() {
         root.clone()
     } else {
@@ -133,33 +180,7 @@ where
         .axis_desc_style(("sans-serif", px(20.0)))
         .draw()
         .map_err(err)?;
-    let shade = RGBColor(220, 60, 60).mix(0.18);
-    for (i, &(a, b)) in chart.shaded.iter().enumerate() {
-        let s = c
-            .draw_series(std::iter::once(Rectangle::new([(a, y0), (b, y1)], shade.filled())))
-            .map_err(err)?;
-        if i == 0 {
-            s.label(chart.shaded_label.clone())
-                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], shade.filled()));
-        }
-    }
-    for line in &chart.lines {
-        let color = line.color;
-        let pts: Vec<(f64, f64)> = line.points.iter().copied().filter(|p| p.1.is_finite()).collect();
-        let series = if line.dashed {
-            c.draw_series(DashedLineSeries::new(pts, 12, 8, color.stroke_width(3)))
-                .map_err(err)?
-        } else {
-            c.draw_series(LineSeries::new(pts, color.stroke_width(3)))
-                .map_err(err)?
-        };
-        // an unlabelled line (the second edge of a band) has no legend entry of its own
-        if !line.label.is_empty() {
-            series
-                .label(line.label.clone())
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(3)));
-        }
-    }
+    draw_xy_series(&mut c, chart, y0, y1)?;
     c.configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(BLACK)
@@ -348,6 +369,92 @@ pub fn hydrograph(
     }
 }
 
+/// The chart of a hydrograph: dates across, discharge up.
+type TimeChart<'a, DB> =
+    ChartContext<'a, DB, Cartesian2d<plotters::coord::types::RangedDateTime<chrono::NaiveDateTime>, RangedCoordf64>>;
+
+/// The runs of consecutive indices below `n` where `keep` holds, as half-open ranges.
+fn runs(n: usize, keep: impl Fn(usize) -> bool) -> Vec<std::ops::Range<usize>> {
+    let mut out = Vec::new();
+    let mut k = 0;
+    while k < n {
+        if !keep(k) {
+            k += 1;
+            continue;
+        }
+        let start = k;
+        while k < n && keep(k) {
+            k += 1;
+        }
+        out.push(start..k);
+    }
+    out
+}
+
+/// Shades the runs of time buckets holding flagged rows (one legend entry).
+fn draw_flagged_runs<DB: DrawingBackend>(
+    c: &mut TimeChart<'_, DB>,
+    b: &HydroBuckets,
+    offset_s: i32,
+    y1: f64,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let shade = RGBColor(230, 120, 30).mix(0.25);
+    for (i, run) in runs(b.n.len(), |k| b.flagged[k]).into_iter().enumerate() {
+        let s = c
+            .draw_series(std::iter::once(Rectangle::new(
+                [
+                    (b.time(run.start as f64, offset_s), 0.0),
+                    (b.time(run.end as f64, offset_s), y1),
+                ],
+                shade.filled(),
+            )))
+            .map_err(err)?;
+        if i == 0 {
+            s.label("flagged rows (not ok or dry)")
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], shade.filled()));
+        }
+    }
+    Ok(())
+}
+
+/// For each run of time buckets with data: the 95 % band as a polygon and the mean discharge
+/// as a line (one legend entry each).
+fn draw_discharge_runs<DB: DrawingBackend>(
+    c: &mut TimeChart<'_, DB>,
+    b: &HydroBuckets,
+    offset_s: i32,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let band = BLUE.mix(0.22);
+    for (i, run) in runs(b.n.len(), |k| b.n[k] > 0).into_iter().enumerate() {
+        let mid = |i: usize| b.time(i as f64 + 0.5, offset_s);
+        let upper: Vec<_> = run.clone().map(|i| (mid(i), b.hi[i])).collect();
+        let lower: Vec<_> = run.clone().rev().map(|i| (mid(i), b.lo[i])).collect();
+        let poly: Vec<_> = upper.into_iter().chain(lower).collect();
+        let line: Vec<_> = run.map(|i| (mid(i), b.sum[i] / f64::from(b.n[i]))).collect();
+        let s = c
+            .draw_series(std::iter::once(Polygon::new(poly, band.filled())))
+            .map_err(err)?;
+        if i == 0 {
+            s.label("95 % band (GUM, k = 2)")
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], band.filled()));
+        }
+        let s = c
+            .draw_series(LineSeries::new(line, BLUE.stroke_width(2)))
+            .map_err(err)?;
+        if i == 0 {
+            s.label("discharge")
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(3)));
+        }
+    }
+    Ok(())
+}
+
 fn draw_hydrograph<DB: DrawingBackend>(
     b: &HydroBuckets,
     title: &str,
@@ -387,64 +494,8 @@ where
         .x_label_formatter(&|t| t.format("%Y-%m-%d").to_string())
         .draw()
         .map_err(err)?;
-    let shade = RGBColor(230, 120, 30).mix(0.25);
-    let mut first_shade = true;
-    let mut k = 0;
-    while k < nb {
-        if b.flagged[k] {
-            let start = k;
-            while k < nb && b.flagged[k] {
-                k += 1;
-            }
-            let s = c
-                .draw_series(std::iter::once(Rectangle::new(
-                    [(b.time(start as f64, offset_s), 0.0), (b.time(k as f64, offset_s), y1)],
-                    shade.filled(),
-                )))
-                .map_err(err)?;
-            if first_shade {
-                first_shade = false;
-                s.label("flagged rows (not ok or dry)")
-                    .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], shade.filled()));
-            }
-        } else {
-            k += 1;
-        }
-    }
-    // contiguous runs of buckets with data: band polygon and mean line
-    let band = BLUE.mix(0.22);
-    let mut first_run = true;
-    let mut k = 0;
-    while k < nb {
-        if b.n[k] == 0 {
-            k += 1;
-            continue;
-        }
-        let start = k;
-        while k < nb && b.n[k] > 0 {
-            k += 1;
-        }
-        let mid = |i: usize| b.time(i as f64 + 0.5, offset_s);
-        let upper: Vec<_> = (start..k).map(|i| (mid(i), b.hi[i])).collect();
-        let lower: Vec<_> = (start..k).rev().map(|i| (mid(i), b.lo[i])).collect();
-        let poly: Vec<_> = upper.into_iter().chain(lower).collect();
-        let line: Vec<_> = (start..k).map(|i| (mid(i), b.sum[i] / f64::from(b.n[i]))).collect();
-        let s = c
-            .draw_series(std::iter::once(Polygon::new(poly, band.filled())))
-            .map_err(err)?;
-        if first_run {
-            s.label("95 % band (GUM, k = 2)")
-                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], band.filled()));
-        }
-        let s = c
-            .draw_series(LineSeries::new(line, BLUE.stroke_width(2)))
-            .map_err(err)?;
-        if first_run {
-            s.label("discharge")
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(3)));
-            first_run = false;
-        }
-    }
+    draw_flagged_runs(&mut c, b, offset_s, y1)?;
+    draw_discharge_runs(&mut c, b, offset_s)?;
     c.configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(BLACK)

@@ -120,16 +120,7 @@ impl Timeline {
         order: FileOrder,
     ) -> Result<Self, TimelineError> {
         let value = |i: u32| values.first().map_or(f64::NAN, |v| v[i as usize]);
-        let mut idx: Vec<u32> = (0..utc.len() as u32).filter(|&i| utc[i as usize] != NO_TIME).collect();
-        // time, then rows with a readable value by value, then file order
-        idx.sort_unstable_by(|&a, &b| {
-            let (va, vb) = (value(a), value(b));
-            utc[a as usize]
-                .cmp(&utc[b as usize])
-                .then(vb.is_finite().cmp(&va.is_finite()))
-                .then(va.total_cmp(&vb))
-                .then(a.cmp(&b))
-        });
+        let idx = time_sorted(utc, values);
         // the first row of each instant, in time order
         let firsts: Vec<usize> = (0..idx.len())
             .filter(|&k| k == 0 || utc[idx[k] as usize] != utc[idx[k - 1] as usize])
@@ -137,13 +128,7 @@ impl Timeline {
         if firsts.len() < 2 {
             return Err(TimelineError::TooFewInstants { readable });
         }
-        let stride = (firsts.len() / MAX_STEPS).max(1);
-        let mut steps: Vec<i64> = (1..firsts.len())
-            .step_by(stride)
-            .map(|k| utc[idx[firsts[k]] as usize] - utc[idx[firsts[k - 1]] as usize])
-            .collect();
-        let mid = steps.len() / 2;
-        let interval_ms = *steps.select_nth_unstable(mid).1;
+        let interval_ms = median_step(utc, &idx, &firsts);
 
         let mut duration_ms = vec![0u32; utc.len()];
         let mut counted_line = vec![0u32; utc.len()];
@@ -254,6 +239,34 @@ fn rising_interval(utc: &[i64]) -> Option<i64> {
     }
     let mid = steps.len() / 2;
     Some(*steps.select_nth_unstable(mid).1)
+}
+
+/// The rows with a time, in time order; rows of one instant with a readable value first, by
+/// value, then the rest in file order.
+fn time_sorted(utc: &[i64], values: &[Vec<f64>]) -> Vec<u32> {
+    let value = |i: u32| values.first().map_or(f64::NAN, |v| v[i as usize]);
+    let mut idx: Vec<u32> = (0..utc.len() as u32).filter(|&i| utc[i as usize] != NO_TIME).collect();
+    idx.sort_unstable_by(|&a, &b| {
+        let (va, vb) = (value(a), value(b));
+        utc[a as usize]
+            .cmp(&utc[b as usize])
+            .then(vb.is_finite().cmp(&va.is_finite()))
+            .then(va.total_cmp(&vb))
+            .then(a.cmp(&b))
+    });
+    idx
+}
+
+/// The median step (ms) between consecutive instants (`firsts` indexes the first row of each
+/// in `idx`), from at most [`MAX_STEPS`] evenly spaced steps.
+fn median_step(utc: &[i64], idx: &[u32], firsts: &[usize]) -> i64 {
+    let stride = (firsts.len() / MAX_STEPS).max(1);
+    let mut steps: Vec<i64> = (1..firsts.len())
+        .step_by(stride)
+        .map(|k| utc[idx[firsts[k]] as usize] - utc[idx[firsts[k - 1]] as usize])
+        .collect();
+    let mid = steps.len() / 2;
+    *steps.select_nth_unstable(mid).1
 }
 
 #[cfg(test)]

@@ -396,8 +396,21 @@ impl<'a> RatingReport<'a> {
 
     /// Readable text: header, rounded table, equation, cautions.
     pub fn to_text(&self) -> Vec<u8> {
-        let u = self.units;
-        let (lu, qu) = u.symbols();
+        let mut s = self.text_header();
+        s.push('\n');
+        s.push_str(&self.text_table_header());
+        for i in 0..self.table.rows.len() {
+            s.push_str(&self.text_row(i));
+        }
+        s.push_str(&self.text_budget());
+        s.push('\n');
+        s.push_str(&self.text_footer());
+        s.into_bytes()
+    }
+
+    /// The lines above the table: station, structure, units, uncertainty basis, column notes.
+    fn text_header(&self) -> String {
+        let (lu, qu) = self.units.symbols();
         let mut s = String::new();
         s.push_str(&format!("flumerate rating: {}\n", self.name));
         s.push_str(&format!("station file: {}\n", self.source));
@@ -417,9 +430,20 @@ impl<'a> RatingReport<'a> {
                 "tail<=: the largest tailwater level ({lu} above the crest) at which the flow stays modular (see `flumerate tailwater`)\n"
             ));
         }
-        s.push('\n');
-        let mc = self.uncertainty.and_then(|u| u.monte_carlo.as_ref());
-        s.push_str(&format!(
+        s
+    }
+
+    /// The Monte Carlo rows, when the report has them.
+    fn monte_carlo_rows(&self) -> Option<&[Option<McRow>]> {
+        self.uncertainty
+            .and_then(|u| u.monte_carlo.as_ref())
+            .map(|(rows, _, _)| rows.as_slice())
+    }
+
+    /// The table's column headings, with units.
+    fn text_table_header(&self) -> String {
+        let (lu, qu) = self.units.symbols();
+        let mut s = format!(
             "{:>8} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}",
             format!("h1 {lu}"),
             format!("Q {qu}"),
@@ -429,90 +453,109 @@ impl<'a> RatingReport<'a> {
             "Cv",
             "Fr1",
             "u95 %",
-        ));
+        );
         if self.modular.is_some() {
             s.push_str(&format!(" {:>10}", format!("tail<= {lu}")));
         }
-        if mc.is_some() {
+        if self.monte_carlo_rows().is_some() {
             s.push_str(&format!(" {:>12} {:>12}", "MC low", "MC high"));
         }
         s.push_str(&format!(" {:>6}  note\n", "valid"));
-        for (i, row) in self.table.rows.iter().enumerate() {
-            let p = row.point;
-            let f = |g: &dyn Fn(&crate::rating::RatingPoint) -> f64, digits: usize| {
-                p.as_ref()
-                    .map(g)
-                    .filter(|v| v.is_finite())
-                    .map_or("-".to_string(), |v| format!("{:.digits$}", v + 0.0))
-            };
-            let u95 = self
-                .uncertainty
-                .map(|x| x.u95_pct[i])
+        s
+    }
+
+    /// Row `i` of the table; a value that could not be computed reads `-`.
+    fn text_row(&self, i: usize) -> String {
+        let u = self.units;
+        let row = &self.table.rows[i];
+        let p = row.point;
+        let f = |g: &dyn Fn(&crate::rating::RatingPoint) -> f64, digits: usize| {
+            p.as_ref()
+                .map(g)
                 .filter(|v| v.is_finite())
-                .map_or("-".to_string(), |v| format!("{v:.2}"));
+                .map_or("-".to_string(), |v| format!("{:.digits$}", v + 0.0))
+        };
+        let u95 = self
+            .uncertainty
+            .map(|x| x.u95_pct[i])
+            .filter(|v| v.is_finite())
+            .map_or("-".to_string(), |v| format!("{v:.2}"));
+        let mut s = format!(
+            "{:>8.4} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}",
+            u.length_from_si(row.head_m),
+            p.as_ref()
+                .map_or("-".to_string(), |p| sig(u.discharge_from_si(p.discharge_m3s), 4)),
+            f(&|p| u.length_from_si(p.energy_head_m), 4),
+            f(&|p| u.length_from_si(p.critical_depth_m), 4),
+            f(&|p| p.cd, 4),
+            f(&|p| p.cv, 4),
+            f(&|p| p.froude_approach, 3),
+            u95,
+        );
+        if let Some(m) = self.modular {
+            let v = m[i].1;
             s.push_str(&format!(
-                "{:>8.4} {:>12} {:>8} {:>8} {:>7} {:>7} {:>6} {:>6}",
+                " {:>10}",
+                if v.is_finite() {
+                    format!("{:.4}", u.length_from_si(v))
+                } else {
+                    "-".into()
+                }
+            ));
+        }
+        if let Some(rows) = self.monte_carlo_rows() {
+            let (lo, hi) = rows[i].map_or(("-".to_string(), "-".to_string()), |m| {
+                (
+                    sig(u.discharge_from_si(m.low_m3s), 4),
+                    sig(u.discharge_from_si(m.high_m3s), 4),
+                )
+            });
+            s.push_str(&format!(" {lo:>12} {hi:>12}"));
+        }
+        s.push_str(&format!(
+            " {:>6}  {}\n",
+            if row.valid { "yes" } else { "NO" },
+            row.notes.join("; ")
+        ));
+        s
+    }
+
+    /// The uncertainty budget table (each input's share of the variance), when there is one.
+    fn text_budget(&self) -> String {
+        let Some(shares) = self.uncertainty.and_then(|x| x.shares.as_ref()) else {
+            return String::new();
+        };
+        let u = self.units;
+        let (lu, _) = u.symbols();
+        let mut s = format!(
+            "\nuncertainty budget: each input's share of the variance of Q, % (one reading)\n{:>8} {:>12} {:>10} {:>8} {:>8} {:>7}\n",
+            format!("h1 {lu}"),
+            "coefficient",
+            "dimension",
+            "zero",
+            "reading",
+            "u95 %"
+        );
+        for (i, row) in self.table.rows.iter().enumerate() {
+            let sh = shares[i];
+            let u95 = self.uncertainty.map_or(f64::NAN, |x| x.u95_pct[i]);
+            s.push_str(&format!(
+                "{:>8.4} {:>12.1} {:>10.1} {:>8.1} {:>8.1} {:>7.2}\n",
                 u.length_from_si(row.head_m),
-                p.as_ref()
-                    .map_or("-".to_string(), |p| sig(u.discharge_from_si(p.discharge_m3s), 4)),
-                f(&|p| u.length_from_si(p.energy_head_m), 4),
-                f(&|p| u.length_from_si(p.critical_depth_m), 4),
-                f(&|p| p.cd, 4),
-                f(&|p| p.cv, 4),
-                f(&|p| p.froude_approach, 3),
-                u95,
-            ));
-            if let Some(m) = self.modular {
-                let v = m[i].1;
-                s.push_str(&format!(
-                    " {:>10}",
-                    if v.is_finite() {
-                        format!("{:.4}", u.length_from_si(v))
-                    } else {
-                        "-".into()
-                    }
-                ));
-            }
-            if let Some((rows, _, _)) = mc {
-                let (lo, hi) = rows[i].map_or(("-".to_string(), "-".to_string()), |m| {
-                    (
-                        sig(u.discharge_from_si(m.low_m3s), 4),
-                        sig(u.discharge_from_si(m.high_m3s), 4),
-                    )
-                });
-                s.push_str(&format!(" {lo:>12} {hi:>12}"));
-            }
-            s.push_str(&format!(
-                " {:>6}  {}\n",
-                if row.valid { "yes" } else { "NO" },
-                row.notes.join("; ")
+                sh[0] * 100.0,
+                sh[1] * 100.0,
+                sh[2] * 100.0,
+                sh[3] * 100.0,
+                u95
             ));
         }
-        if let Some(shares) = self.uncertainty.and_then(|x| x.shares.as_ref()) {
-            s.push_str(&format!(
-                "\nuncertainty budget: each input's share of the variance of Q, % (one reading)\n{:>8} {:>12} {:>10} {:>8} {:>8} {:>7}\n",
-                format!("h1 {lu}"),
-                "coefficient",
-                "dimension",
-                "zero",
-                "reading",
-                "u95 %"
-            ));
-            for (i, row) in self.table.rows.iter().enumerate() {
-                let sh = shares[i];
-                let u95 = self.uncertainty.map_or(f64::NAN, |x| x.u95_pct[i]);
-                s.push_str(&format!(
-                    "{:>8.4} {:>12.1} {:>10.1} {:>8.1} {:>8.1} {:>7.2}\n",
-                    u.length_from_si(row.head_m),
-                    sh[0] * 100.0,
-                    sh[1] * 100.0,
-                    sh[2] * 100.0,
-                    sh[3] * 100.0,
-                    u95
-                ));
-            }
-        }
-        s.push('\n');
+        s
+    }
+
+    /// The lines below the table: the rating equation, rows out of the limits, cautions.
+    fn text_footer(&self) -> String {
+        let u = self.units;
+        let mut s = String::new();
         match self.equation {
             Some(eq) => {
                 s.push_str("rating equation: ");
@@ -531,6 +574,6 @@ impl<'a> RatingReport<'a> {
         s.push('\n');
         s.push_str(&wrap(CAUTIONS, 100));
         s.push('\n');
-        s.into_bytes()
+        s
     }
 }
