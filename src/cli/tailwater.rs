@@ -7,7 +7,7 @@ use std::process::ExitCode;
 use anyhow::{bail, Context};
 use clap::Args;
 use flumerate::report::plot::xy_chart;
-use flumerate::report::tailwater::TailwaterReport;
+use flumerate::report::tailwater::{exit_method, TailwaterReport};
 use flumerate::tailwater::{check, Exit, Tailwater, Verdict};
 use flumerate::units::Units;
 
@@ -53,18 +53,7 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
     let tailwater = Tailwater::new(spec, station.structure.gravity_m_s2);
     let result = check(&model, &exit, &tailwater, &heads)
         .with_context(|| format!("{}: tailwater check", a.station.display()))?;
-    let method = match exit.fixed_modular_limit {
-        Some(ml) => format!("{ml} as given in [exit] modular_limit"),
-        None => format!(
-            "energy balance over the exit (Bos & Reinink 1981): {} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
-            if station.exit.expansion > 0.0 {
-                format!("a 1:{} expansion", station.exit.expansion)
-            } else {
-                "an abrupt exit".to_string()
-            },
-            exit.loss_coefficient
-        ),
-    };
+    let method = exit_method(&station.exit, &exit);
     let report = TailwaterReport {
         name: &station.name,
         source: &station.source,

@@ -4,9 +4,27 @@ use serde_json::{json, Map, Value};
 
 use super::plot::{Line, XyChart};
 use super::{sig, wrap, CAUTIONS};
-use crate::tailwater::{DrownedBand, RowKind, TailwaterCheck, TailwaterRow, Verdict};
+use crate::station::ExitSpec;
+use crate::tailwater::{DrownedBand, Exit, RowKind, TailwaterCheck, TailwaterRow, Verdict};
 use crate::units::Units;
 use plotters::style::RGBColor;
+
+/// How the modular limit is obtained, in words for the report's header: the value given in
+/// `[exit]`, or the energy balance over the exit with its expansion and loss coefficient.
+pub fn exit_method(spec: &ExitSpec, exit: &Exit) -> String {
+    match exit.fixed_modular_limit {
+        Some(ml) => format!("{ml} as given in [exit] modular_limit"),
+        None => format!(
+            "energy balance over the exit (Bos & Reinink 1981): {} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
+            if spec.expansion > 0.0 {
+                format!("a 1:{} expansion", spec.expansion)
+            } else {
+                "an abrupt exit".to_string()
+            },
+            exit.loss_coefficient
+        ),
+    }
+}
 
 /// Everything the tailwater report shows.
 #[derive(Debug, Clone, Copy)]
