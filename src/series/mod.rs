@@ -2,9 +2,11 @@
 pub mod convert;
 pub mod correct;
 pub mod dense;
+pub mod edits;
 pub mod output;
 pub mod pipeline;
 pub mod read;
+pub mod screen;
 pub mod settings;
 pub mod side;
 pub mod time;

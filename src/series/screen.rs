@@ -1,0 +1,607 @@
+//! Screening, edits and gap filling: which readings a conversion may trust, which it replaces,
+//! and which stretches it fills, decided once over the rows in time order before any row is
+//! converted. Nothing here deletes a row; every decision becomes a flag word and a count.
+//!
+//! Screening rules (each can be tuned in the station's `[screening]` table; the defaults are
+//! common practice, no source):
+//! - **out of water**: a stage at or below the sensor's dry reading when the sensor sits below
+//!   the crest (there is then no water over it, so it is not measuring), or a sudden drop from
+//!   flowing water to within a tolerance of the dry reading, and every reading after it until the
+//!   stage rises above that tolerance again (a logger lifted out for maintenance);
+//! - **spike**: a jump of more than `spike_rise` from the reading before that comes back to
+//!   within half of it within `spike_return` readings;
+//! - **flat**: the same logged value, to the last bit, for `flat_hours` or longer while the head
+//!   is above the crest (a stuck sensor or a frozen well).
+//!
+//! Gap filling: a stretch of readings that have no usable head (missing, excluded, screened)
+//! or of time with no readings at all, between two usable readings at most `fill_max_hours`
+//! apart, is filled by linear interpolation of the head in time; where the logger wrote no rows,
+//! rows are inserted at the nominal interval. The rating, not interpolated discharge, gives the
+//! filled discharge. The interpolation carries an extra standard uncertainty of half the change
+//! in head across the gap (at least [`MIN_FILL_HALF_WIDTH_M`]) taken as the half-width of a
+//! rectangular distribution (JCGM 100 §4.3.7), the same for every row of the gap.
+
+use std::collections::HashMap;
+
+use super::edits::{EditAction, Edits};
+use super::time::NO_TIME;
+
+/// The smallest half-width (m) of the interpolation error of a filled head: a few millimetres
+/// even across a gap whose ends read the same (common practice, no source).
+pub const MIN_FILL_HALF_WIDTH_M: f64 = 0.005;
+
+/// The screening thresholds, SI.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ScreeningSpec {
+    /// Whether the automatic screening runs (edits and gap filling always do).
+    pub enabled: bool,
+    /// A jump larger than this (m) from one reading to the next may be a spike.
+    pub spike_rise_m: f64,
+    /// A spike comes back within this many readings.
+    pub spike_return: usize,
+    /// The same value for this long (h) while flowing is a flat line.
+    pub flat_hours: f64,
+    /// "Near the dry reading" (m).
+    pub out_of_water_tolerance_m: f64,
+    /// Gaps up to this long (h) are filled; 0 fills none.
+    pub fill_max_hours: f64,
+}
+
+impl Default for ScreeningSpec {
+    /// Common practice, no source: a 0.10 m jump that returns within 3 readings, 12 h of the
+    /// same value, 0.02 m from the dry reading, gaps up to 2 h filled.
+    fn default() -> Self {
+        Self {
+            enabled: true,
+            spike_rise_m: 0.10,
+            spike_return: 3,
+            flat_hours: 12.0,
+            out_of_water_tolerance_m: 0.02,
+            fill_max_hours: 2.0,
+        }
+    }
+}
+
+/// What screening or an edit decided for a row, before any fill.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[repr(u8)]
+pub enum Screen {
+    /// Nothing.
+    Kept = 0,
+    /// Inside an `exclude` edit.
+    Excluded = 1,
+    /// The sensor was out of the water.
+    OutOfWater = 2,
+    /// A spike.
+    Spike = 3,
+    /// A flat line.
+    Flat = 4,
+    /// Inside a `fill` edit.
+    FillEdit = 5,
+}
+
+impl Screen {
+    fn from_u8(v: u8) -> Self {
+        match v {
+            1 => Screen::Excluded,
+            2 => Screen::OutOfWater,
+            3 => Screen::Spike,
+            4 => Screen::Flat,
+            5 => Screen::FillEdit,
+            _ => Screen::Kept,
+        }
+    }
+}
+
+/// A filled head.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Fill {
+    /// The interpolated head (m).
+    pub head_m: f64,
+    /// The standard uncertainty of the interpolation (m).
+    pub u_m: f64,
+}
+
+/// A row inserted into a filled gap where the logger wrote none.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Inserted {
+    /// The input row it follows in time.
+    pub after_row: u32,
+    /// Its instant (UTC ms).
+    pub time_ms: i64,
+    /// The time it stands for (ms).
+    pub duration_ms: u32,
+    /// Its head.
+    pub fill: Fill,
+}
+
+/// One filled gap, for the provenance record.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FilledGap {
+    /// The usable readings either side (UTC ms).
+    pub from_ms: i64,
+    /// See `from_ms`.
+    pub to_ms: i64,
+    /// Input rows filled.
+    pub rows: usize,
+    /// Rows inserted.
+    pub inserted: usize,
+    /// Filled because a `fill` edit asked (line), rather than by the gap rule.
+    pub edit_line: Option<usize>,
+}
+
+/// The decisions for every row.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Screened {
+    codes: Vec<u8>,
+    /// Filled heads of input rows (row → fill).
+    pub fills: HashMap<u32, Fill>,
+    /// Rows inserted into filled gaps, in time order.
+    pub inserted: Vec<Inserted>,
+    /// Rows per screening decision, in [`Screen`] order (before filling).
+    pub screened: [usize; 6],
+    /// Of the filled input rows: how many per decision (0: no usable head).
+    pub filled_from: [usize; 6],
+    /// The filled gaps (at most [`MAX_LISTED_GAPS`] listed; `gaps_total` counts all).
+    pub gaps: Vec<FilledGap>,
+    /// How many gaps were filled.
+    pub gaps_total: usize,
+    /// Gaps longer than the fill limit left missing (count, hours).
+    pub unfilled: (usize, f64),
+    /// Rows each edit touched, in edit order.
+    pub edit_rows: Vec<usize>,
+    /// `fill` edits that could not be filled (no usable reading on one side), by line.
+    pub fill_edits_failed: Vec<usize>,
+}
+
+/// At most this many filled gaps are listed in the provenance record.
+pub const MAX_LISTED_GAPS: usize = 200;
+
+impl Screened {
+    /// The decision for input row `i`.
+    #[inline]
+    pub fn code(&self, i: usize) -> Screen {
+        self.codes.get(i).map_or(Screen::Kept, |c| Screen::from_u8(*c))
+    }
+
+    /// The filled head of input row `i`, if it was filled.
+    #[inline]
+    pub fn fill(&self, i: usize) -> Option<Fill> {
+        if self.fills.is_empty() {
+            None
+        } else {
+            self.fills.get(&(i as u32)).copied()
+        }
+    }
+}
+
+/// What the screening needs to know of the rows. `order` lists the rows that stand for time
+/// (one per instant) in time order; `level(i)` gives row `i`'s stage and head (m, NaN where it
+/// has none: no reading, an impossible one).
+pub struct Rows<'a, L: Fn(usize) -> (f64, f64)> {
+    /// Rows in time order.
+    pub order: &'a [u32],
+    /// Instants (UTC ms) per row.
+    pub utc: &'a [i64],
+    /// The logged value per row (stage or pressure, as logged).
+    pub raw: &'a [f64],
+    /// Stage and head per row.
+    pub level: L,
+    /// The nominal interval (ms).
+    pub interval_ms: i64,
+}
+
+/// The sensor's dry reading (m of stage) and whether the sensor sits below the crest.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sensor {
+    /// The stage the logger reads with its sensor in air (m).
+    pub dry_m: f64,
+    /// Whether the sensor sits below the crest (its dry reading below the zero).
+    pub below_crest: bool,
+}
+
+/// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
+pub fn screen<L: Fn(usize) -> (f64, f64)>(
+    rows: &Rows<'_, L>,
+    n: usize,
+    edits: &Edits,
+    spec: &ScreeningSpec,
+    sensor: Sensor,
+) -> Screened {
+    let mut s = Screened {
+        codes: vec![0; n],
+        edit_rows: vec![0; edits.edits.len()],
+        ..Default::default()
+    };
+    apply_edits(rows.utc, edits, &mut s);
+    if spec.enabled {
+        out_of_water(rows, spec, sensor, &mut s.codes);
+        spikes(rows, spec, &mut s.codes);
+        flat(rows, spec, &mut s.codes);
+    }
+    for &i in rows.order {
+        s.screened[usize::from(s.codes[i as usize])] += 1;
+    }
+    fill_gaps(rows, edits, spec, &mut s);
+    s
+}
+
+/// `exclude` and `fill` windows mark their rows; every edit counts the rows it touches.
+fn apply_edits(utc: &[i64], edits: &Edits, s: &mut Screened) {
+    if edits.is_empty() {
+        return;
+    }
+    for (i, &t) in utc.iter().enumerate() {
+        if t == NO_TIME {
+            continue;
+        }
+        for (k, e) in edits.edits.iter().enumerate() {
+            if e.covers(t) {
+                s.edit_rows[k] += 1;
+                match e.action {
+                    EditAction::Exclude => s.codes[i] = Screen::Excluded as u8,
+                    EditAction::Fill => s.codes[i] = Screen::FillEdit as u8,
+                    _ => {}
+                }
+            }
+        }
+    }
+}
+
+/// A row whose head can be screened: kept so far, with a head.
+fn usable<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, codes: &[u8], i: usize) -> bool {
+    codes[i] == 0 && (rows.level)(i).1.is_finite()
+}
+
+fn out_of_water<L: Fn(usize) -> (f64, f64)>(
+    rows: &Rows<'_, L>,
+    spec: &ScreeningSpec,
+    sensor: Sensor,
+    codes: &mut [u8],
+) {
+    let near = sensor.dry_m + spec.out_of_water_tolerance_m;
+    let mut before: Option<(f64, f64)> = None; // stage, head of the last usable reading
+    let mut in_episode = false;
+    for &r in rows.order {
+        let i = r as usize;
+        if !usable(rows, codes, i) {
+            continue;
+        }
+        let (stage, head) = (rows.level)(i);
+        let in_air = sensor.below_crest && stage <= sensor.dry_m;
+        let dropped = stage <= near
+            && (in_episode
+                || before.is_some_and(|(s0, h0)| {
+                    h0 > spec.out_of_water_tolerance_m && s0 - stage > spec.out_of_water_tolerance_m
+                }));
+        if in_air || dropped {
+            codes[i] = Screen::OutOfWater as u8;
+            in_episode = dropped || in_episode;
+        } else {
+            in_episode = false;
+            before = Some((stage, head));
+        }
+    }
+}
+
+/// Positions (into `order`) of the usable rows.
+fn usable_positions<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, codes: &[u8]) -> Vec<usize> {
+    (0..rows.order.len())
+        .filter(|&p| usable(rows, codes, rows.order[p] as usize))
+        .collect()
+}
+
+fn spikes<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, spec: &ScreeningSpec, codes: &mut [u8]) {
+    let pos = usable_positions(rows, codes);
+    let row = |k: usize| rows.order[pos[k]] as usize;
+    let head = |k: usize| (rows.level)(row(k)).1;
+    let time = |k: usize| rows.utc[row(k)];
+    let rise = spec.spike_rise_m;
+    let mut k = 1;
+    while k < pos.len() {
+        let before = head(k - 1);
+        let consecutive = time(k) - time(k - 1) <= 2 * rows.interval_ms;
+        if !(consecutive && (head(k) - before).abs() > rise) {
+            k += 1;
+            continue;
+        }
+        // the spike ends at j when the reading after j is back within half the rise
+        let end = (k..(k + spec.spike_return).min(pos.len() - 1)).find(|&j| (head(j + 1) - before).abs() <= rise / 2.0);
+        match end {
+            Some(j) => {
+                for m in k..=j {
+                    codes[row(m)] = Screen::Spike as u8;
+                }
+                k = j + 2;
+            }
+            None => k += 1,
+        }
+    }
+}
+
+fn flat<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, spec: &ScreeningSpec, codes: &mut [u8]) {
+    let pos = usable_positions(rows, codes);
+    let row = |k: usize| rows.order[pos[k]] as usize;
+    let min_ms = (spec.flat_hours * 3_600_000.0) as i64;
+    let mut start = 0;
+    while start < pos.len() {
+        let bits = rows.raw[row(start)].to_bits();
+        let mut end = start;
+        while end + 1 < pos.len() && rows.raw[row(end + 1)].to_bits() == bits {
+            end += 1;
+        }
+        let flowing = (rows.level)(row(start)).1 > 0.0;
+        if flowing && end > start && rows.utc[row(end)] - rows.utc[row(start)] >= min_ms {
+            for m in start..=end {
+                codes[row(m)] = Screen::Flat as u8;
+            }
+        }
+        start = end + 1;
+    }
+}
+
+/// Fills gaps between usable readings (and the windows of `fill` edits).
+fn fill_gaps<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened) {
+    let max_ms = (spec.fill_max_hours * 3_600_000.0).round() as i64;
+    let anchors = usable_positions(rows, &s.codes);
+    let mut failed: Vec<usize> = Vec::new();
+    // rows before the first anchor and after the last cannot be filled
+    let ends = [
+        (0, anchors.first().copied().unwrap_or(rows.order.len())),
+        (anchors.last().map_or(rows.order.len(), |&p| p + 1), rows.order.len()),
+    ];
+    for (from, to) in ends {
+        for &r in &rows.order[from..to] {
+            if s.codes[r as usize] == Screen::FillEdit as u8 {
+                failed.push(r as usize);
+            }
+        }
+    }
+    for w in anchors.windows(2) {
+        let (pa, pb) = (w[0], w[1]);
+        let (a, b) = (rows.order[pa] as usize, rows.order[pb] as usize);
+        let (ta, tb) = (rows.utc[a], rows.utc[b]);
+        let between = &rows.order[pa + 1..pb];
+        let no_rows_gap = tb - ta > rows.interval_ms + rows.interval_ms / 10;
+        if between.is_empty() && !no_rows_gap {
+            continue;
+        }
+        let by_rule = tb - ta <= max_ms;
+        let edit_line = |t: i64| {
+            edits
+                .edits
+                .iter()
+                .find(|e| e.action == EditAction::Fill && e.covers(t))
+                .map(|e| e.line)
+        };
+        let wanted: Vec<u32> = between
+            .iter()
+            .copied()
+            .filter(|&r| by_rule || s.codes[r as usize] == Screen::FillEdit as u8)
+            .collect();
+        let (ha, hb) = ((rows.level)(a).1, (rows.level)(b).1);
+        let fill_at = |t: i64| Fill {
+            head_m: ha + (hb - ha) * ((t - ta) as f64 / (tb - ta) as f64),
+            u_m: ((hb - ha).abs() / 2.0).max(MIN_FILL_HALF_WIDTH_M) / 3f64.sqrt(),
+        };
+        for &r in &wanted {
+            let i = r as usize;
+            s.filled_from[usize::from(s.codes[i])] += 1;
+            s.fills.insert(r, fill_at(rows.utc[i]));
+        }
+        let first_inserted = s.inserted.len();
+        insert_rows(rows, a, between, b, by_rule, &edit_line, &fill_at, &mut s.inserted);
+        let inserted = s.inserted.len() - first_inserted;
+        if !by_rule {
+            // longer than the limit: missing, except what fill edits asked for
+            s.unfilled.0 += 1;
+            s.unfilled.1 += (tb - ta) as f64 / 3_600_000.0;
+        }
+        if wanted.is_empty() && inserted == 0 {
+            continue;
+        }
+        let first_time = wanted
+            .first()
+            .map(|&r| rows.utc[r as usize])
+            .or_else(|| s.inserted.get(first_inserted).map(|r| r.time_ms));
+        s.gaps_total += 1;
+        if s.gaps.len() < MAX_LISTED_GAPS {
+            s.gaps.push(FilledGap {
+                from_ms: ta,
+                to_ms: tb,
+                rows: wanted.len(),
+                inserted,
+                edit_line: if by_rule { None } else { first_time.and_then(edit_line) },
+            });
+        }
+    }
+    s.fill_edits_failed = failed
+        .into_iter()
+        .filter_map(|i| {
+            edits
+                .edits
+                .iter()
+                .find(|e| e.action == EditAction::Fill && e.covers(rows.utc[i]))
+        })
+        .map(|e| e.line)
+        .collect();
+    s.fill_edits_failed.dedup();
+}
+
+/// Rows inserted where the logger wrote none between `a` and `b` (with `between` the rows it did
+/// write): at the nominal interval after each instant while the next instant is more than 1.1
+/// intervals away, so an inserted row starts where the row before it stops standing for time.
+/// Only where the gap rule fills (`by_rule`) or a `fill` edit covers the time.
+#[allow(clippy::too_many_arguments)]
+fn insert_rows<L: Fn(usize) -> (f64, f64)>(
+    rows: &Rows<'_, L>,
+    a: usize,
+    between: &[u32],
+    b: usize,
+    by_rule: bool,
+    edit_line: &dyn Fn(i64) -> Option<usize>,
+    fill_at: &dyn Fn(i64) -> Fill,
+    out: &mut Vec<Inserted>,
+) {
+    let step = rows.interval_ms;
+    if step <= 0 {
+        return;
+    }
+    let mut after = a;
+    let mut cur = rows.utc[a];
+    for next in between.iter().map(|&r| r as usize).chain(std::iter::once(b)) {
+        let tn = rows.utc[next];
+        let mut run: Vec<i64> = Vec::new();
+        while tn - cur > step + step / 10 {
+            cur += step;
+            run.push(cur);
+        }
+        for (k, &t) in run.iter().enumerate() {
+            if !(by_rule || edit_line(t).is_some()) {
+                continue;
+            }
+            let end = run.get(k + 1).copied().unwrap_or(tn);
+            out.push(Inserted {
+                after_row: after as u32,
+                time_ms: t,
+                duration_ms: (end - t).clamp(0, step) as u32,
+                fill: fill_at(t),
+            });
+        }
+        after = next;
+        cur = tn;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const MIN: i64 = 60_000;
+
+    /// Readings every 15 min from t = 0: heads as given (stage = head + 0.1, zero 0.1 m).
+    fn run(heads: &[f64], spec: &ScreeningSpec, edits: &Edits) -> Screened {
+        let utc: Vec<i64> = (0..heads.len() as i64).map(|k| k * 15 * MIN).collect();
+        run_at(&utc, heads, spec, edits)
+    }
+
+    fn run_at(utc: &[i64], heads: &[f64], spec: &ScreeningSpec, edits: &Edits) -> Screened {
+        let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
+        let order: Vec<u32> = (0..heads.len() as u32).collect();
+        let rows = Rows {
+            order: &order,
+            utc,
+            raw: &raw,
+            level: |i: usize| (heads[i] + 0.1, heads[i]),
+            interval_ms: 15 * MIN,
+        };
+        let sensor = Sensor {
+            dry_m: 0.0,
+            below_crest: true,
+        };
+        screen(&rows, heads.len(), edits, spec, sensor)
+    }
+
+    fn codes(s: &Screened, n: usize) -> Vec<Screen> {
+        (0..n).map(|i| s.code(i)).collect()
+    }
+
+    #[test]
+    fn a_spike_that_returns_is_screened_and_a_rise_that_stays_is_not() {
+        let spec = ScreeningSpec::default();
+        let h = [0.20, 0.21, 0.55, 0.21, 0.22, 0.40, 0.52, 0.53, 0.52];
+        let s = run(&h, &spec, &Edits::default());
+        let c = codes(&s, h.len());
+        assert_eq!(c[2], Screen::Spike);
+        assert!(c.iter().enumerate().all(|(i, c)| i == 2 || *c == Screen::Kept), "{c:?}");
+        // the spike's row is filled from its neighbours: 0.21 both sides
+        let f = s.fill(2).expect("filled");
+        assert!((f.head_m - 0.21).abs() < 1e-12);
+        assert!((f.u_m - MIN_FILL_HALF_WIDTH_M / 3f64.sqrt()).abs() < 1e-15);
+    }
+
+    #[test]
+    fn a_lift_out_is_out_of_water_until_the_sensor_is_back() {
+        let spec = ScreeningSpec::default();
+        // flowing at 0.25 m, lifted out (stage ≈ 0.005, in air), back in
+        let h = [0.25, 0.25, -0.095, -0.098, -0.096, 0.24, 0.24];
+        let s = run(&h, &spec, &Edits::default());
+        let c = codes(&s, h.len());
+        assert_eq!(&c[2..5], &[Screen::OutOfWater; 3]);
+        assert_eq!(c[5], Screen::Kept);
+        // 45 min between the usable readings: filled by interpolation of head
+        for i in 2..5 {
+            let f = s.fill(i).expect("filled");
+            let expect = 0.25 + (0.24 - 0.25) * ((i - 1) as f64 / 4.0);
+            assert!((f.head_m - expect).abs() < 1e-12, "{i}: {}", f.head_m);
+        }
+        assert_eq!(s.filled_from[Screen::OutOfWater as usize], 3);
+    }
+
+    #[test]
+    fn a_flat_line_while_flowing_is_screened_and_not_filled_when_long() {
+        let spec = ScreeningSpec {
+            flat_hours: 2.0,
+            ..ScreeningSpec::default()
+        };
+        let mut h = vec![0.30, 0.31];
+        h.extend(std::iter::repeat_n(0.333, 12)); // 11 steps of 15 min = 2.75 h
+        h.extend([0.34, 0.35]);
+        let s = run(&h, &spec, &Edits::default());
+        let c = codes(&s, h.len());
+        assert!(c[2..14].iter().all(|c| *c == Screen::Flat), "{c:?}");
+        assert_eq!(c[14], Screen::Kept);
+        // 3.25 h between usable readings: longer than the 2 h limit, left missing
+        assert!(s.fill(5).is_none());
+        assert_eq!(s.unfilled.0, 1);
+        // the same value at no flow is not a flat line
+        let dry = vec![-0.05; 20];
+        let s = run(&dry, &spec, &Edits::default());
+        assert!(codes(&s, 20).iter().all(|c| *c == Screen::Kept));
+    }
+
+    #[test]
+    fn a_gap_without_rows_gets_rows_at_the_interval_up_to_the_limit() {
+        let spec = ScreeningSpec::default();
+        // 90 min without rows between 00:15 and 01:45
+        let utc = [0, 15 * MIN, 105 * MIN, 120 * MIN];
+        let h = [0.2, 0.2, 0.5, 0.5];
+        let s = run_at(&utc, &h, &spec, &Edits::default());
+        let times: Vec<i64> = s.inserted.iter().map(|r| r.time_ms / MIN).collect();
+        assert_eq!(times, [30, 45, 60, 75, 90]);
+        assert!(s
+            .inserted
+            .iter()
+            .all(|r| r.after_row == 1 && r.duration_ms == 15 * 60_000));
+        assert!((s.inserted[2].fill.head_m - 0.35).abs() < 1e-12, "halfway");
+        // 6 h without rows: left missing
+        let utc = [0, 15 * MIN, 375 * MIN, 390 * MIN];
+        let s = run_at(&utc, &h, &spec, &Edits::default());
+        assert!(s.inserted.is_empty());
+        assert_eq!(s.unfilled.0, 1);
+        assert!((s.unfilled.1 - 6.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn edits_exclude_and_fill_their_windows() {
+        let spec = ScreeningSpec {
+            enabled: false,
+            fill_max_hours: 0.0,
+            ..ScreeningSpec::default()
+        };
+        let edits = Edits::parse(
+            "start,end,action,reason\n1970-01-01T00:30:00Z,1970-01-01T00:45:00Z,exclude,cleaning\n1970-01-01T01:30:00Z,1970-01-01T01:30:00Z,fill,bird on the float\n",
+            &[],
+            &super::super::time::Zone::Fixed(0),
+        )
+        .expect("edits");
+        let h = [0.2, 0.2, 0.2, 0.2, 0.2, 0.2, 0.9, 0.2, 0.2];
+        let s = run(&h, &spec, &edits);
+        let c = codes(&s, h.len());
+        assert_eq!(&c[2..4], &[Screen::Excluded; 2]);
+        assert_eq!(c[6], Screen::FillEdit);
+        assert_eq!(s.edit_rows, [2, 1]);
+        assert!(s.fill(2).is_none(), "excluded and no gap filling asked");
+        assert!((s.fill(6).expect("filled by the edit").head_m - 0.2).abs() < 1e-12);
+    }
+}
