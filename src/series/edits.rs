@@ -187,7 +187,7 @@ impl Edits {
                 ));
             }
             let value_mm = || -> Result<f64, (Option<usize>, String)> {
-                let text = ci_value.map(|i| field(i)).unwrap_or_default();
+                let text = ci_value.map(&field).unwrap_or_default();
                 let v: f64 = text.parse().map_err(|_| {
                     (
                         Some(line),
