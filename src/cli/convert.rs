@@ -43,6 +43,17 @@ pub struct ConvertArgs {
     /// Barometric pressure: CSV with `time` and `pressure`, in the logger's pressure unit
     #[arg(long, value_name = "FILE")]
     pub baro: Option<PathBuf>,
+    /// Edits log: CSV with start,end,action,reason (and value_mm); actions exclude, fill,
+    /// offset, set-zero
+    #[arg(long, value_name = "FILE")]
+    pub edits: Option<PathBuf>,
+    /// Turn the automatic screening (out of water, spikes, flat lines) off
+    #[arg(long = "no-screening")]
+    pub no_screening: bool,
+    /// Longest gap filled by interpolation of head, e.g. 2h, 90min, 0 for none [default: the
+    /// station's [screening] fill_max_hours, or 2h]
+    #[arg(long = "fill-max", value_name = "DURATION", value_parser = hours)]
+    pub fill_max: Option<f64>,
     /// Write rows sorted by time (then by line) instead of in input order
     #[arg(long)]
     pub sort: bool,
@@ -151,11 +162,41 @@ impl ConvertArgs {
         ];
         inputs.extend(self.visits.as_deref().map(|v| ("visits file", v)));
         inputs.extend(self.baro.as_deref().map(|b| ("barometric file", b)));
+        inputs.extend(self.edits.as_deref().map(|e| ("edits file", e)));
         let mut outputs = vec![("-o", out.series.as_path()), ("--provenance", out.provenance.as_path())];
         outputs.extend(out.daily.as_deref().map(|p| ("--daily", p)));
         outputs.extend(out.monthly.as_deref().map(|p| ("--monthly", p)));
         outputs.extend(out.plot.as_deref().map(|p| ("--plot", p)));
         flumerate::files::check_paths(&inputs, &outputs)
+    }
+}
+
+/// A duration such as `2h`, `90min`, `45m`, `3600s` or `0`, in hours.
+fn hours(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    if t == "0" {
+        return Ok(0.0);
+    }
+    let split = t
+        .find(|c: char| c.is_ascii_alphabetic())
+        .ok_or_else(|| format!("\"{text}\" has no unit: write e.g. 2h, 90min or 0"))?;
+    let (number, unit) = t.split_at(split);
+    let v: f64 = number
+        .trim()
+        .parse()
+        .map_err(|_| format!("\"{number}\" is not a number"))?;
+    let per_hour = match unit.trim() {
+        "h" | "hr" | "hours" => 1.0,
+        "min" | "m" | "minutes" => 60.0,
+        "s" | "seconds" => 3600.0,
+        "d" | "days" => 1.0 / 24.0,
+        other => return Err(format!("unknown unit \"{other}\": use h, min, s or d")),
+    };
+    let h = v / per_hour;
+    if h.is_finite() && (0.0..=1.0e5).contains(&h) {
+        Ok(h)
+    } else {
+        Err(format!("{text} is not a usable duration"))
     }
 }
 
@@ -202,6 +243,13 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let station = Station::load(&a.station)?;
     let mut options = ConvertOptions::new(&station, &a.overrides(), a.visits.clone(), a.baro.clone())?;
     options.sort = a.sort;
+    options.edits = a.edits.clone();
+    if a.no_screening {
+        options.screening.enabled = false;
+    }
+    if let Some(h) = a.fill_max {
+        options.screening.fill_max_hours = h;
+    }
     options.submerged_estimate = a.submerged_estimate;
     let pipeline = Pipeline::new(&station, options)?;
     let bar = Bar::new();

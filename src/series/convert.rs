@@ -19,39 +19,56 @@ use std::collections::BTreeMap;
 
 use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
-use super::time::{civil_from_days, date_string, local_day_start_utc, TimeNote, Zone, NO_TIME};
+use super::edits::Edits;
+use super::screen::{Fill, Screen, Screened};
+use super::time::{civil_from_days, date_string, days_from_civil, local_day_start_utc, TimeNote, Zone, NO_TIME};
 use super::timeline::Timeline;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_estimate, NoEstimate, Tailwater};
-use crate::uncertainty::{BandWeights, GumModel, Inputs, PeriodAccumulator, SeriesReading};
+use crate::uncertainty::{BandWeights, GumModel, Inputs, PeriodAccumulator, SeriesReading, COVERAGE_FACTOR};
 
-/// One flag per row, most severe first.
+/// One flag per row, most severe first (design.md, "Second round").
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum Flag {
-    /// No usable time or head.
+    /// No usable time or head, and not filled.
     Missing,
-    /// The tailwater drowns the control: the rating reads high.
+    /// Inside an `exclude` edit, not filled.
+    Excluded,
+    /// The sensor was out of the water ([`super::screen`]), not filled.
+    OutOfWater,
+    /// A spike ([`super::screen`]), not filled.
+    Spike,
+    /// A flat line ([`super::screen`]), not filled.
+    Flat,
+    /// The tailwater drowns the control: the rating reads high (estimated).
     Submerged,
-    /// Head above the station's range: computed by the model beyond the rated range.
+    /// Head above the station's range: computed by the model beyond the rated range (estimated).
     AboveRange,
-    /// Head above the crest but below the station's range.
+    /// Head above the crest but below the station's range (estimated).
     BelowRange,
-    /// Head in the station's range, but outside the method's limits of application.
+    /// Head in the station's range, but outside the method's limits of application (estimated).
     BeyondLimits,
-    /// Head at or below the crest: no flow over the control.
+    /// Head interpolated across a gap or an edit's window, then rated (estimated).
+    Filled,
+    /// Head at or below the crest: no flow over the control (measured).
     Dry,
-    /// Within everything.
+    /// Within everything (measured).
     Ok,
 }
 
 impl Flag {
     /// All flags, most severe first.
-    pub const ALL: [Flag; 7] = [
+    pub const ALL: [Flag; 12] = [
         Flag::Missing,
+        Flag::Excluded,
+        Flag::OutOfWater,
+        Flag::Spike,
+        Flag::Flat,
         Flag::Submerged,
         Flag::AboveRange,
         Flag::BelowRange,
         Flag::BeyondLimits,
+        Flag::Filled,
         Flag::Dry,
         Flag::Ok,
     ];
@@ -60,18 +77,58 @@ impl Flag {
     pub fn as_str(self) -> &'static str {
         match self {
             Flag::Missing => "missing",
+            Flag::Excluded => "excluded",
+            Flag::OutOfWater => "out-of-water",
+            Flag::Spike => "spike",
+            Flag::Flat => "flat",
             Flag::Submerged => "submerged",
             Flag::AboveRange => "above-range",
             Flag::BelowRange => "below-range",
             Flag::BeyondLimits => "beyond-limits",
+            Flag::Filled => "filled",
             Flag::Dry => "dry",
             Flag::Ok => "ok",
         }
     }
 
-    /// Whether the row counts in volumes and means.
-    pub fn counted(self) -> bool {
+    /// Measured: the row's discharge comes from a reading within everything (`ok`, `dry`).
+    pub fn measured(self) -> bool {
         matches!(self, Flag::Ok | Flag::Dry)
+    }
+
+    /// Estimated: the row has a discharge, but from beyond the rating's range or limits, a
+    /// drowned control, or a filled head.
+    pub fn estimated(self) -> bool {
+        matches!(
+            self,
+            Flag::Submerged | Flag::AboveRange | Flag::BelowRange | Flag::BeyondLimits | Flag::Filled
+        )
+    }
+
+    /// Whether the row has a discharge that counts in volumes (measured or estimated).
+    pub fn counted(self) -> bool {
+        self.measured() || self.estimated()
+    }
+
+    /// How many times the model's uncertainty an estimated row carries (common practice, no
+    /// source: the band of a value the rating does not cover is stated, not known): 2 beyond the
+    /// range or the limits and for a drowned control; 1 otherwise (a filled row adds its
+    /// interpolation error instead).
+    pub fn band_factor(self) -> f64 {
+        match self {
+            Flag::Submerged | Flag::AboveRange | Flag::BelowRange | Flag::BeyondLimits => 2.0,
+            _ => 1.0,
+        }
+    }
+
+    fn of_screen(code: Screen) -> Option<Flag> {
+        match code {
+            Screen::Excluded => Some(Flag::Excluded),
+            Screen::OutOfWater => Some(Flag::OutOfWater),
+            Screen::Spike => Some(Flag::Spike),
+            Screen::Flat => Some(Flag::Flat),
+            Screen::Kept | Screen::FillEdit => None,
+        }
     }
 }
 
@@ -153,6 +210,22 @@ impl Impossible {
     }
 }
 
+/// A row's stage and head, before any fill.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Level {
+    /// Stage (m), NaN where it cannot be had.
+    pub stage_m: f64,
+    /// Corrected head above the crest (m): zero, edits and drift applied; NaN where the reading
+    /// is impossible or missing.
+    pub head_m: f64,
+    /// Why the reading is impossible, if it is.
+    pub impossible: Option<Impossible>,
+    /// The barometric series did not reach the row.
+    pub no_baro: bool,
+    /// The logged temperature was missing and the given one was used.
+    pub temperature_fallback: bool,
+}
+
 /// Everything the conversion needs besides the rows.
 #[derive(Debug, Clone)]
 pub struct Conversion<'a> {
@@ -187,6 +260,14 @@ pub struct Conversion<'a> {
     pub zone: Zone,
     /// Gravity (m/s²).
     pub gravity_m_s2: f64,
+    /// The edits from the hydrographer's log (zero and offset windows apply to the head).
+    pub edits: Edits,
+    /// Screening, edits and fills decided over the rows in time order ([`super::screen`]);
+    /// empty until [`crate::series::pipeline::stages::screen`] has run.
+    pub screened: Screened,
+    /// Rows read from the file; rows past them are inserted into filled gaps
+    /// ([`Screened::inserted`], in order).
+    pub input_rows: usize,
 }
 
 /// The converted rows of one output chunk (columns).
@@ -217,7 +298,7 @@ pub struct Chunk {
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Counts {
     /// Rows per flag, in [`Flag::ALL`] order.
-    pub per_flag: [usize; 7],
+    pub per_flag: [usize; 12],
     /// Drowned rows whose discharge was replaced by the estimate.
     pub submerged_estimated: usize,
     /// Drowned rows for which no estimate applies (discharge left as the free-flow rating).
@@ -274,14 +355,31 @@ impl Chunk {
     }
 }
 
+/// A row's discharge as it counts in the summaries: the reading, whether it is estimated, and
+/// the widening of its uncertainty ([`Flag::band_factor`], and the interpolation error of a
+/// filled head).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CountedReading {
+    /// The reading (its `duration_s` is set when it is added).
+    pub reading: SeriesReading,
+    /// Estimated rather than measured.
+    pub estimated: bool,
+    /// Times the model's uncertainty.
+    pub factor: f64,
+    /// Standard uncertainty of an interpolated head (m), 0 for a measured one.
+    pub u_fill_m: f64,
+}
+
 /// Running statistics of one summary period.
 #[derive(Debug, Clone, Copy, PartialEq)]
 struct Acc {
     rows: usize,
     counted: usize,
+    measured_rows: usize,
     min_q: f64,
     max_q: f64,
-    period: PeriodAccumulator,
+    measured: PeriodAccumulator,
+    estimated: PeriodAccumulator,
 }
 
 impl Default for Acc {
@@ -289,60 +387,89 @@ impl Default for Acc {
         Self {
             rows: 0,
             counted: 0,
+            measured_rows: 0,
             min_q: f64::INFINITY,
             max_q: f64::NEG_INFINITY,
-            period: PeriodAccumulator::default(),
+            measured: PeriodAccumulator::default(),
+            estimated: PeriodAccumulator::default(),
         }
     }
 }
 
 impl Acc {
-    fn add(&mut self, counted: bool, q: f64, r: Option<&SeriesReading>) {
+    fn add(&mut self, q: f64, r: Option<&CountedReading>) {
         self.rows += 1;
-        if counted {
+        if let Some(r) = r {
             self.counted += 1;
+            self.measured_rows += usize::from(!r.estimated);
             self.min_q = self.min_q.min(q);
             self.max_q = self.max_q.max(q);
+            self.push(r);
         }
-        if let Some(r) = r {
-            self.period.push(r);
+    }
+
+    fn push(&mut self, r: &CountedReading) {
+        if r.estimated {
+            self.estimated.push_estimated(&r.reading, r.factor, r.u_fill_m);
+        } else {
+            self.measured.push(&r.reading);
         }
     }
 
     fn merge(&mut self, o: &Acc) {
         self.rows += o.rows;
         self.counted += o.counted;
+        self.measured_rows += o.measured_rows;
         self.min_q = self.min_q.min(o.min_q);
         self.max_q = self.max_q.max(o.max_q);
-        self.period.merge(&o.period);
+        self.measured.merge(&o.measured);
+        self.estimated.merge(&o.estimated);
     }
 }
 
-/// One summary row.
+/// One summary row. Every period is accounted for: its length is measured, estimated or
+/// missing time.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PeriodRow {
     /// `YYYY-MM-DD` or `YYYY-MM` on the local clock.
     pub label: String,
-    /// Rows in the period.
+    /// Rows in the period (inserted rows included).
     pub rows: usize,
-    /// Rows counted (`ok` or `dry`, not repeating another row's instant).
+    /// Rows whose discharge counts (measured or estimated, not repeating another row's instant).
     pub rows_counted: usize,
+    /// Of those, measured (`ok` or `dry`).
+    pub rows_measured: usize,
     /// Mean discharge over the time covered by counted rows (m³/s).
     pub mean_m3s: f64,
     /// Smallest counted discharge (m³/s).
     pub min_m3s: f64,
     /// Largest counted discharge (m³/s).
     pub max_m3s: f64,
-    /// Volume of the counted rows (m³).
+    /// Volume of the counted rows, measured plus estimated (m³).
     pub volume_m3: f64,
-    /// Expanded (k = 2) uncertainty of the volume, systematic and random combined (m³).
+    /// Volume of the measured rows (m³).
+    pub volume_measured_m3: f64,
+    /// Volume of the estimated rows (m³).
+    pub volume_estimated_m3: f64,
+    /// Expanded (k = 2) uncertainty of the volume, every part combined (m³).
     pub volume_u95_m3: f64,
-    /// Standard uncertainty from the systematic inputs (m³).
+    /// Standard uncertainty from the systematic inputs and the interpolation of filled heads
+    /// (m³).
     pub volume_u_systematic_m3: f64,
     /// Standard uncertainty from reading noise (m³).
     pub volume_u_random_m3: f64,
-    /// Hours covered by counted rows.
+    /// Hours covered by counted rows (measured plus estimated).
     pub covered_h: f64,
+    /// Hours covered by measured rows.
+    pub measured_h: f64,
+    /// Hours covered by estimated rows.
+    pub estimated_h: f64,
+    /// Hours of the period with no discharge: the period's length less the covered hours.
+    pub missing_h: f64,
+    /// The period's length on the local clock (h): 24, or 23 or 25 on a clock-change day.
+    pub period_h: f64,
+    /// Covered share of the period (%).
+    pub complete_pct: f64,
 }
 
 /// Daily and monthly summaries. Consecutive rows of the same day are gathered in a running
@@ -354,13 +481,13 @@ pub struct Summaries {
 }
 
 impl Summaries {
-    fn add(&mut self, day: i64, counted: bool, q: f64, r: Option<&SeriesReading>) {
-        self.acc(day).add(counted, q, r);
+    fn add(&mut self, day: i64, q: f64, r: Option<&CountedReading>) {
+        self.acc(day).add(q, r);
     }
 
     /// The rest of a reading's time that runs into a later day: time and volume, no row.
-    fn add_spill(&mut self, day: i64, r: &SeriesReading) {
-        self.acc(day).period.push(r);
+    fn add_spill(&mut self, day: i64, r: &CountedReading) {
+        self.acc(day).push(r);
     }
 
     fn acc(&mut self, day: i64) -> &mut Acc {
@@ -386,52 +513,94 @@ impl Summaries {
         }
     }
 
-    fn months(&self) -> BTreeMap<(i64, u32), Acc> {
+    /// Every day from the first to the last, those without a row included.
+    fn all_days(&self) -> BTreeMap<i64, Acc> {
+        let mut all = self.days.clone();
+        if let (Some(first), Some(last)) = (self.days.keys().next(), self.days.keys().next_back()) {
+            for d in *first..=*last {
+                all.entry(d).or_default();
+            }
+        }
+        all
+    }
+
+    fn months(days: &BTreeMap<i64, Acc>) -> BTreeMap<(i64, u32), Acc> {
         let mut m: BTreeMap<(i64, u32), Acc> = BTreeMap::new();
-        for (d, acc) in &self.days {
+        for (d, acc) in days {
             let (y, mo, _) = civil_from_days(*d);
             m.entry((y, mo)).or_default().merge(acc);
         }
         m
     }
 
-    fn rows<K: Ord + Copy>(map: &BTreeMap<K, Acc>, label: impl Fn(K) -> String, inputs: &Inputs) -> Vec<PeriodRow> {
-        map.iter()
-            .map(|(k, a)| {
-                let p = a.period.finish(inputs);
-                let sys = (p.u_coefficient_m3.powi(2) + p.u_dimension_m3.powi(2) + p.u_zero_m3.powi(2)).sqrt();
-                let counted = a.counted > 0;
-                PeriodRow {
-                    label: label(*k),
-                    rows: a.rows,
-                    rows_counted: a.counted,
-                    mean_m3s: if counted && p.covered_s > 0.0 {
-                        p.volume_m3 / p.covered_s
-                    } else {
-                        f64::NAN
-                    },
-                    min_m3s: if counted { a.min_q } else { f64::NAN },
-                    max_m3s: if counted { a.max_q } else { f64::NAN },
-                    volume_m3: p.volume_m3,
-                    volume_u95_m3: p.expanded_m3(),
-                    volume_u_systematic_m3: sys,
-                    volume_u_random_m3: p.u_random_m3,
-                    covered_h: p.covered_s / 3600.0,
-                }
+    fn row(label: String, a: &Acc, period_s: f64, inputs: &Inputs) -> PeriodRow {
+        let mut all = a.measured;
+        all.merge(&a.estimated);
+        let p = all.finish(inputs);
+        let (m, e) = (a.measured.finish(inputs), a.estimated.finish(inputs));
+        let sys =
+            (p.u_coefficient_m3.powi(2) + p.u_dimension_m3.powi(2) + p.u_zero_m3.powi(2) + p.u_fill_m3.powi(2)).sqrt();
+        let counted = a.counted > 0;
+        PeriodRow {
+            label,
+            rows: a.rows,
+            rows_counted: a.counted,
+            rows_measured: a.measured_rows,
+            mean_m3s: if counted && p.covered_s > 0.0 {
+                p.volume_m3 / p.covered_s
+            } else {
+                f64::NAN
+            },
+            min_m3s: if counted { a.min_q } else { f64::NAN },
+            max_m3s: if counted { a.max_q } else { f64::NAN },
+            volume_m3: m.volume_m3 + e.volume_m3,
+            volume_measured_m3: m.volume_m3,
+            volume_estimated_m3: e.volume_m3,
+            volume_u95_m3: p.expanded_m3(),
+            volume_u_systematic_m3: sys,
+            volume_u_random_m3: p.u_random_m3,
+            covered_h: p.covered_s / 3600.0,
+            measured_h: m.covered_s / 3600.0,
+            estimated_h: e.covered_s / 3600.0,
+            missing_h: ((period_s - p.covered_s) / 3600.0).max(0.0),
+            period_h: period_s / 3600.0,
+            complete_pct: if period_s > 0.0 {
+                (100.0 * p.covered_s / period_s).min(100.0)
+            } else {
+                f64::NAN
+            },
+        }
+    }
+
+    /// One row per local calendar day, every day from the first to the last.
+    pub fn daily(&mut self, zone: &Zone, inputs: &Inputs) -> Vec<PeriodRow> {
+        self.flush();
+        let mut ends = DayEnds::new(*zone);
+        self.all_days()
+            .iter()
+            .map(|(d, a)| {
+                let len_ms = ends.of(*d) - local_day_start_utc(zone, *d);
+                Self::row(date_string(*d), a, len_ms as f64 / 1000.0, inputs)
             })
             .collect()
     }
 
-    /// One row per local calendar day.
-    pub fn daily(&mut self, inputs: &Inputs) -> Vec<PeriodRow> {
-        self.flush();
-        Self::rows(&self.days, date_string, inputs)
-    }
-
     /// One row per local calendar month.
-    pub fn monthly(&mut self, inputs: &Inputs) -> Vec<PeriodRow> {
+    pub fn monthly(&mut self, zone: &Zone, inputs: &Inputs) -> Vec<PeriodRow> {
         self.flush();
-        Self::rows(&self.months(), |(y, m)| format!("{y:04}-{m:02}"), inputs)
+        Self::months(&self.all_days())
+            .iter()
+            .map(|(&(y, m), a)| {
+                let first = days_from_civil(y, m, 1);
+                let next = if m == 12 {
+                    days_from_civil(y + 1, 1, 1)
+                } else {
+                    days_from_civil(y, m + 1, 1)
+                };
+                let len_ms = local_day_start_utc(zone, next) - local_day_start_utc(zone, first);
+                Self::row(format!("{y:04}-{m:02}"), a, len_ms as f64 / 1000.0, inputs)
+            })
+            .collect()
     }
 }
 
@@ -471,6 +640,77 @@ impl Conversion<'_> {
                     }
                 }
             }
+        }
+    }
+
+    /// The head (m) before drift of a stage read at `t`: the stage less the logger's zero (a
+    /// `set-zero` edit's where one holds `t`), plus any `offset` edits.
+    #[inline]
+    pub fn head_before_drift(&self, t: i64, stage_m: f64) -> f64 {
+        stage_m - self.edits.zero_at(t, self.zero_m) + self.edits.offset_at(t)
+    }
+
+    /// Row `i`'s stage and head at instant `t`, before any fill: the impossible readings get no
+    /// head.
+    pub fn level(&self, i: usize, t: i64, values: &[Vec<f64>]) -> Level {
+        let (stage_m, no_baro, temperature_fallback) = self.stage_of(t, values, i);
+        let drift = if t == NO_TIME {
+            0.0
+        } else {
+            drift_at_usable(&self.drift, t)
+        };
+        let impossible = if matches!(self.stage, StageSource::Pressure { .. }) && values[0][i] < 0.0 {
+            Some(Impossible::NegativePressure)
+        } else if stage_m < self.plausible.min_stage_m {
+            Some(Impossible::BelowSensor)
+        } else if stage_m > self.plausible.max_stage_m {
+            Some(Impossible::AboveMaxDepth)
+        } else {
+            None
+        };
+        Level {
+            stage_m,
+            head_m: if impossible.is_some() {
+                f64::NAN
+            } else {
+                self.head_before_drift(t, stage_m) + drift
+            },
+            impossible,
+            no_baro,
+            temperature_fallback,
+        }
+    }
+
+    /// The screening decision for row `i` (inserted rows have none).
+    #[inline]
+    fn screen_of(&self, i: usize) -> Screen {
+        if i >= self.input_rows {
+            Screen::Kept
+        } else {
+            self.screened.code(i)
+        }
+    }
+
+    /// The filled head of row `i`, if it has one (every inserted row does).
+    #[inline]
+    fn fill_of(&self, i: usize) -> Option<Fill> {
+        if i >= self.input_rows {
+            self.screened.inserted.get(i - self.input_rows).map(|r| r.fill)
+        } else {
+            self.screened.fill(i)
+        }
+    }
+
+    /// The time (ms) row `i` stands for.
+    #[inline]
+    fn duration_of(&self, i: usize, utc: &[i64]) -> i64 {
+        if i >= self.input_rows {
+            self.screened
+                .inserted
+                .get(i - self.input_rows)
+                .map_or(0, |r| i64::from(r.duration_ms))
+        } else {
+            self.timeline.duration_ms(i, utc)
         }
     }
 
@@ -524,7 +764,7 @@ impl Conversion<'_> {
             counts.per_flag[flag as usize] += 1;
             if c.time_ms[k] != NO_TIME {
                 let counted = flag.counted() && !self.timeline.is_repeat(i, c.line[k]);
-                let duration_ms = self.timeline.duration_ms(i, utc);
+                let duration_ms = self.duration_of(i, utc);
                 let row = (c.time_ms[k], i64::from(days[i]), c.discharge_m3s[k]);
                 add_to_summaries(summaries, &mut day_end, row, reading.filter(|_| counted), duration_ms);
             }
@@ -550,33 +790,15 @@ impl Conversion<'_> {
         };
         for &i in order {
             let t = utc[i];
-            let (stage, no_baro, fallback) = self.stage_of(t, values, i);
-            counts.no_baro += usize::from(no_baro);
-            counts.temperature_fallback += usize::from(fallback);
-            let drift = if t == NO_TIME {
-                0.0
-            } else {
-                drift_at_usable(&self.drift, t)
-            };
-            let impossible = if matches!(self.stage, StageSource::Pressure { .. }) && values[0][i] < 0.0 {
-                Some(Impossible::NegativePressure)
-            } else if stage < self.plausible.min_stage_m {
-                Some(Impossible::BelowSensor)
-            } else if stage > self.plausible.max_stage_m {
-                Some(Impossible::AboveMaxDepth)
-            } else {
-                None
-            };
-            if let Some(why) = impossible {
+            let lv = self.level(i, t, values);
+            counts.no_baro += usize::from(lv.no_baro);
+            counts.temperature_fallback += usize::from(lv.temperature_fallback);
+            if let Some(why) = lv.impossible {
                 counts.impossible.push((lines[i], why));
             }
             c.time_ms.push(t);
-            c.stage_m.push(stage);
-            c.head_m.push(if impossible.is_some() {
-                f64::NAN
-            } else {
-                stage - self.zero_m + drift
-            });
+            c.stage_m.push(lv.stage_m);
+            c.head_m.push(self.fill_of(i).map_or(lv.head_m, |f| f.head_m));
             c.line.push(lines[i]);
             c.counted_line.push(self.timeline.counted_line(i).unwrap_or(0));
         }
@@ -611,8 +833,9 @@ impl Conversion<'_> {
     }
 
     /// Stage 3 of [`Self::convert_rows`] for row `k` (input row `i`): its flag, the rare cases
-    /// (above the table: the model itself; drowned: the flag and, where asked and applicable,
-    /// the drowned-flow estimate) and the reading it adds to the summaries.
+    /// (screened rows: no discharge; above the table: the model itself; drowned: the flag and,
+    /// where asked and applicable, the drowned-flow estimate), the widened band of an estimated
+    /// row and the reading it adds to the summaries.
     #[allow(clippy::too_many_arguments)]
     fn flag_row(
         &self,
@@ -624,16 +847,70 @@ impl Conversion<'_> {
         rated: &[bool],
         weights: &BandWeights,
         counts: &mut Counts,
-    ) -> (Flag, Option<SeriesReading>) {
+    ) -> (Flag, Option<CountedReading>) {
         let (t, head) = (c.time_ms[k], c.head_m[k]);
         if t == NO_TIME || !head.is_finite() {
             return (Flag::Missing, None);
         }
+        let fill = self.fill_of(i);
+        if fill.is_none() {
+            if let Some(flag) = Flag::of_screen(self.screen_of(i)) {
+                c.discharge_m3s[k] = f64::NAN;
+                c.low_m3s[k] = f64::NAN;
+                c.high_m3s[k] = f64::NAN;
+                return (flag, None);
+            }
+        }
+        let Some(mut flag) = self.flow_flag(k, i, values, c, sens, rated, weights, counts) else {
+            return (Flag::Missing, None);
+        };
+        if fill.is_some() && flag.measured() {
+            flag = Flag::Filled;
+        }
+        let factor = flag.band_factor();
+        let u_fill_m = fill.map_or(0.0, |f| f.u_m);
+        let [dcd, db, dh] = sens[k];
+        if factor > 1.0 || u_fill_m > 0.0 {
+            let q = c.discharge_m3s[k];
+            let u_model = factor * (c.high_m3s[k] - q) / COVERAGE_FACTOR;
+            let half = COVERAGE_FACTOR * u_model.hypot(dh * u_fill_m);
+            c.low_m3s[k] = (q - half).max(0.0);
+            c.high_m3s[k] = q + half;
+        }
+        let reading = reading_of([c.discharge_m3s[k], dcd, db, dh], 0.0, true);
+        (
+            flag,
+            Some(CountedReading {
+                reading,
+                estimated: flag.estimated(),
+                factor,
+                u_fill_m,
+            }),
+        )
+    }
+
+    /// The flag of a row with a head, from the flow: dry, or rated (the model itself above the
+    /// table) and placed against the range, the limits and the tailwater. `None` where the
+    /// model has no discharge.
+    #[allow(clippy::too_many_arguments)]
+    fn flow_flag(
+        &self,
+        k: usize,
+        i: usize,
+        values: &[Vec<f64>],
+        c: &mut Chunk,
+        sens: &mut [[f64; 3]],
+        rated: &[bool],
+        weights: &BandWeights,
+        counts: &mut Counts,
+    ) -> Option<Flag> {
+        let head = c.head_m[k];
         if head <= 0.0 {
             c.discharge_m3s[k] = 0.0;
             c.low_m3s[k] = 0.0;
             c.high_m3s[k] = 0.0;
-            return (Flag::Dry, Some(reading_of([0.0; 4], 0.0, true)));
+            sens[k] = [0.0; 3];
+            return Some(Flag::Dry);
         }
         let exact = if rated[k] {
             None
@@ -648,7 +925,7 @@ impl Conversion<'_> {
             sens[k] = [v[1], v[2], v[3]];
         }
         if !rated[k] && exact.is_none() {
-            return (Flag::Missing, None);
+            return None;
         }
         let mut flag = if head > self.range.max_head_m {
             Flag::AboveRange
@@ -668,11 +945,7 @@ impl Conversion<'_> {
                 }
             }
         }
-        let [dcd, db, dh] = sens[k];
-        (
-            flag,
-            Some(reading_of([c.discharge_m3s[k], dcd, db, dh], 0.0, flag.counted())),
-        )
+        Some(flag)
     }
 
     /// Whether the logged tailwater `level` (m above the crest) drowns row `k`; if so, the
@@ -732,22 +1005,22 @@ fn add_to_summaries(
     summaries: &mut Summaries,
     day_end: &mut DayEnds,
     (t, day, q): (i64, i64, f64),
-    reading: Option<SeriesReading>,
+    reading: Option<CountedReading>,
     duration_ms: i64,
 ) {
     let Some(mut r) = reading else {
-        summaries.add(day, false, q, None);
+        summaries.add(day, q, None);
         return;
     };
     let end = day_end.of(day);
     let own = duration_ms.min((end - t).max(0));
-    r.duration_s = own as f64 / 1000.0;
-    summaries.add(day, true, q, Some(&r));
+    r.reading.duration_s = own as f64 / 1000.0;
+    summaries.add(day, q, Some(&r));
     let (mut rest, mut d, mut from) = (duration_ms - own, day, end);
     while rest > 0 {
         d += 1;
         let part = rest.min(day_end.of(d) - from).max(1);
-        r.duration_s = part as f64 / 1000.0;
+        r.reading.duration_s = part as f64 / 1000.0;
         summaries.add_spill(d, &r);
         rest -= part;
         from += part;

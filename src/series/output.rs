@@ -314,15 +314,21 @@ pub fn write_summary(file: File, format: TableFile, key: &str, rows: &[PeriodRow
             rows.iter().map(|r| r.rows_counted as u32).collect(),
         )
         .into_column(),
-        named(f(|r| r.rows_counted as f64 / r.rows.max(1) as f64), "share_ok"),
+        named(f(|r| r.rows_measured as f64 / r.rows.max(1) as f64), "share_ok"),
         named(f(|r| r.mean_m3s), "mean_discharge_m3s"),
         named(f(|r| r.min_m3s), "min_discharge_m3s"),
         named(f(|r| r.max_m3s), "max_discharge_m3s"),
         named(f(|r| r.volume_m3), "volume_m3"),
+        named(f(|r| r.volume_measured_m3), "volume_measured_m3"),
+        named(f(|r| r.volume_estimated_m3), "volume_estimated_m3"),
         named(f(|r| r.volume_u95_m3), "volume_u95_m3"),
         named(f(|r| r.volume_u_systematic_m3), "volume_u_systematic_m3"),
         named(f(|r| r.volume_u_random_m3), "volume_u_random_m3"),
         named(f(|r| r.covered_h), "covered_h"),
+        named(f(|r| r.measured_h), "measured_h"),
+        named(f(|r| r.estimated_h), "estimated_h"),
+        named(f(|r| r.missing_h), "missing_h"),
+        named(f(|r| r.complete_pct), "complete_pct"),
     ];
     let mut df = DataFrame::new(rows.len(), cols)?;
     match format {

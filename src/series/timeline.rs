@@ -48,6 +48,8 @@ pub struct Timeline {
     pub differing: Vec<Vec<u32>>,
     /// How many repeated instants have differing values.
     pub differing_total: usize,
+    /// The number of rows the timeline was made for (rows inserted later are not its own).
+    rows: usize,
     order: Order,
 }
 
@@ -60,6 +62,8 @@ enum Order {
     Sorted {
         duration_ms: Vec<u32>,
         counted_line: Vec<u32>,
+        /// The rows that count, one per instant, in time order.
+        time_order: Vec<u32>,
     },
 }
 
@@ -105,6 +109,7 @@ impl Timeline {
                 repeat_rows: 0,
                 differing: Vec::new(),
                 differing_total: 0,
+                rows: utc.len(),
                 order: Order::Rising,
             });
         }
@@ -132,6 +137,7 @@ impl Timeline {
 
         let mut duration_ms = vec![0u32; utc.len()];
         let mut counted_line = vec![0u32; utc.len()];
+        let mut time_order: Vec<u32> = Vec::with_capacity(firsts.len());
         let (mut repeated_instants, mut repeat_rows) = (0, 0);
         let (mut differing, mut differing_total) = (Vec::new(), 0);
         for (g, &start) in firsts.iter().enumerate() {
@@ -140,12 +146,14 @@ impl Timeline {
             if end - start == 1 {
                 let only = idx[start] as usize;
                 duration_ms[only] = stands_for(utc[only], next, interval_ms);
+                time_order.push(only as u32);
                 continue;
             }
             let group = &idx[start..end];
             let readable = group.iter().filter(|&&i| value(i).is_finite()).count();
             let first = group[readable.saturating_sub(1) / 2] as usize;
             duration_ms[first] = stands_for(utc[first], next, interval_ms);
+            time_order.push(first as u32);
             repeated_instants += 1;
             repeat_rows += end - start - 1;
             for &i in group {
@@ -174,9 +182,11 @@ impl Timeline {
             repeat_rows,
             differing,
             differing_total,
+            rows: utc.len(),
             order: Order::Sorted {
                 duration_ms,
                 counted_line,
+                time_order,
             },
         })
     }
@@ -191,10 +201,24 @@ impl Timeline {
                 if utc[i] == NO_TIME {
                     return 0;
                 }
-                let next = utc[i + 1..].iter().copied().find(|&t| t != NO_TIME);
+                let next = utc[i + 1..self.rows].iter().copied().find(|&t| t != NO_TIME);
                 i64::from(stands_for(utc[i], next, self.interval_ms))
             }
         }
+    }
+
+    /// The rows that stand for time, one per instant, in time order (`utc` as given to
+    /// [`Timeline::new`]).
+    pub fn time_order(&self, utc: &[i64]) -> Vec<u32> {
+        match &self.order {
+            Order::Rising => (0..self.rows as u32).filter(|&i| utc[i as usize] != NO_TIME).collect(),
+            Order::Sorted { time_order, .. } => time_order.clone(),
+        }
+    }
+
+    /// The number of rows the timeline was made for.
+    pub fn rows(&self) -> usize {
+        self.rows
     }
 
     /// For a row whose instant other rows hold too: the line of the row that counts for it (the
@@ -203,7 +227,7 @@ impl Timeline {
     pub fn counted_line(&self, i: usize) -> Option<u32> {
         match &self.order {
             Order::Rising => None,
-            Order::Sorted { counted_line, .. } => Some(counted_line[i]).filter(|l| *l != 0),
+            Order::Sorted { counted_line, .. } => counted_line.get(i).copied().filter(|l| *l != 0),
         }
     }
 

@@ -7,6 +7,7 @@
 mod control;
 mod logger;
 mod raw;
+mod screening;
 mod shape;
 mod tables;
 mod tailwater;
@@ -283,6 +284,8 @@ pub struct Station {
     pub uncertainty: UncertaintySpec,
     /// Logger settings, if given.
     pub logger: Option<LoggerSpec>,
+    /// Screening thresholds and the gap-fill limit (`[screening]`, defaults without one).
+    pub screening: crate::series::screen::ScreeningSpec,
 }
 
 impl Station {
@@ -406,6 +409,12 @@ impl Ctx<'_> {
         let tailwater = raw.tailwater.as_ref().map(|t| self.tailwater(t, unit)).transpose()?;
         let uncertainty = self.uncertainty(&raw)?;
         let logger = raw.logger.as_ref().map(|l| self.logger(l)).transpose()?;
+        let screening = raw
+            .screening
+            .as_ref()
+            .map(|t| self.screening(t, unit))
+            .transpose()?
+            .unwrap_or_default();
         let structure = Structure {
             control: control.section,
             control_length_m: control.length_m,
@@ -441,6 +450,7 @@ impl Ctx<'_> {
             tailwater,
             uncertainty,
             logger,
+            screening,
         })
     }
 

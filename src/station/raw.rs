@@ -35,6 +35,19 @@ pub struct RawStation {
     pub range: Option<Spanned<RawRange>>,
     pub uncertainty: Option<Spanned<RawUncertainty>>,
     pub logger: Option<Spanned<RawLogger>>,
+    pub screening: Option<Spanned<RawScreening>>,
+}
+
+/// `[screening]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawScreening {
+    pub enabled: Option<Spanned<bool>>,
+    pub spike_rise: Option<Num>,
+    pub spike_return: Option<Spanned<i64>>,
+    pub flat_hours: Option<Num>,
+    pub out_of_water_tolerance: Option<Num>,
+    pub fill_max_hours: Option<Num>,
 }
 
 /// `[control]`

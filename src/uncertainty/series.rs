@@ -101,6 +101,9 @@ pub struct PeriodUncertainty {
     pub u_random_m3: f64,
     /// What the reading noise would give if it were wrongly treated as fully correlated (m³).
     pub u_random_if_correlated_m3: f64,
+    /// From the interpolation of filled heads, taken as fully correlated over the period (m³);
+    /// 0 without filled readings.
+    pub u_fill_m3: f64,
 }
 
 impl PeriodUncertainty {
@@ -109,7 +112,8 @@ impl PeriodUncertainty {
         (self.u_coefficient_m3.powi(2)
             + self.u_dimension_m3.powi(2)
             + self.u_zero_m3.powi(2)
-            + self.u_random_m3.powi(2))
+            + self.u_random_m3.powi(2)
+            + self.u_fill_m3.powi(2))
         .sqrt()
     }
 
@@ -141,9 +145,27 @@ pub struct PeriodAccumulator {
     s_b: f64,
     s_h: f64,
     s_h2: f64,
+    s_fill: f64,
 }
 
 impl PeriodAccumulator {
+    /// Adds one estimated reading whose every uncertainty contribution is `factor` times the
+    /// model's, with an extra head uncertainty `u_fill_m` (standard, m) from interpolation,
+    /// taken as fully correlated with that of every other filled reading of the period (a
+    /// conservative choice: the readings of one gap err together).
+    pub fn push_estimated(&mut self, r: &SeriesReading, factor: f64, u_fill_m: f64) {
+        let scaled = SeriesReading {
+            dq_dcoefficient: r.dq_dcoefficient * factor,
+            dq_ddimension: r.dq_ddimension * factor,
+            dq_dhead: r.dq_dhead * factor,
+            ..*r
+        };
+        self.push(&scaled);
+        if r.included {
+            self.s_fill += (r.dq_dhead * u_fill_m * r.duration_s).abs();
+        }
+    }
+
     /// Adds one reading.
     pub fn push(&mut self, r: &SeriesReading) {
         if !r.included {
@@ -171,6 +193,7 @@ impl PeriodAccumulator {
         self.s_b += o.s_b;
         self.s_h += o.s_h;
         self.s_h2 += o.s_h2;
+        self.s_fill += o.s_fill;
     }
 
     /// The period's volume and uncertainty.
@@ -186,6 +209,7 @@ impl PeriodAccumulator {
             u_zero_m3: self.s_h.abs() * inputs.zero.standard,
             u_random_m3: self.s_h2.sqrt() * inputs.reading.standard,
             u_random_if_correlated_m3: self.s_h.abs() * inputs.reading.standard,
+            u_fill_m3: self.s_fill,
         }
     }
 }

@@ -79,13 +79,34 @@ fn every_row_of_every_test_file_comes_out_once() {
     ] {
         let (out, o) = convert(logger, station, dir.path(), &extra);
         assert!(o.status.success(), "{logger}: {}", String::from_utf8_lossy(&o.stderr));
-        let rows = read_rows(&out);
+        let all = read_rows(&out);
+        // rows inserted into filled gaps have line 0 and an estimated flag (filled, or a range
+        // flag, which is more severe)
+        let (inserted, rows): (Vec<_>, Vec<_>) = all.iter().partition(|r| r["line"] == "0");
+        let estimated = ["filled", "above-range", "below-range", "beyond-limits"];
+        assert!(
+            inserted.iter().all(|r| estimated.contains(&r["flag"].as_str())),
+            "{logger}: inserted rows are estimated"
+        );
         let mut lines: Vec<usize> = rows.iter().map(|r| r["line"].parse().expect("line")).collect();
         let expected = data_lines(&data(logger), skip);
         assert_eq!(rows.len(), expected.len(), "{logger} {extra:?}: rows in = rows out");
         lines.sort_unstable();
         assert_eq!(lines, expected, "{logger}: each input line exactly once");
-        let flags = ["missing", "submerged", "above-range", "below-range", "dry", "ok"];
+        let flags = [
+            "missing",
+            "excluded",
+            "out-of-water",
+            "spike",
+            "flat",
+            "submerged",
+            "above-range",
+            "below-range",
+            "beyond-limits",
+            "filled",
+            "dry",
+            "ok",
+        ];
         assert!(
             rows.iter().all(|r| flags.contains(&r["flag"].as_str())),
             "one known flag per row"
@@ -96,7 +117,8 @@ fn every_row_of_every_test_file_comes_out_once() {
 #[test]
 fn messy_rows_are_flagged_and_reported() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let (out, o) = convert("messy.csv", "station.toml", dir.path(), &[]);
+    // no gap filling: the rows' own flags
+    let (out, o) = convert("messy.csv", "station.toml", dir.path(), &["--fill-max", "0"]);
     let report = String::from_utf8_lossy(&o.stdout).to_string();
     let rows = read_rows(&out);
     let by_line: BTreeMap<usize, &BTreeMap<String, String>> =
@@ -118,7 +140,7 @@ fn messy_rows_are_flagged_and_reported() {
     assert_eq!(flag(37), "ok", "a CRLF line reads");
     // the report lists unreadable rows and the time oddities
     assert!(
-        report.contains("unreadable rows (flag missing), lines: 10, 14, 16, 19"),
+        report.contains("unreadable rows (no head: missing, or filled in a short gap), lines: 10, 14, 16, 19"),
         "{report}"
     );
     assert!(report.contains("order: 1 step(s) back in time"), "{report}");

@@ -518,7 +518,8 @@ fn side_files_take_iso_times_and_reach_the_ends() {
     assert_eq!(code, Some(0), "{err}");
     // baro.csv runs 00:00 to 03:00: 22:45 and 05:00 are within 3 h of its ends, 07:00 is not
     assert!(
-        report.contains("rows without barometric pressure within reach (flag missing): 1"),
+        report
+            .contains("rows without barometric pressure within reach (no head: missing, or filled in a short gap): 1"),
         "{report}"
     );
 }

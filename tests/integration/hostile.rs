@@ -85,27 +85,26 @@ fn impossible_readings_are_flagged_missing_never_zero_flow() {
         .arg(data("station.toml"))
         .arg("-o")
         .arg(&out)
+        .args(["--fill-max", "0"])
         .output()
         .expect("run");
     assert!(o.status.success());
     let report = String::from_utf8_lossy(&o.stdout);
     assert!(
         report.contains(
-            "impossible readings, more than 0.10 m below the sensor's dry reading (flag missing): 1 row(s), lines 3"
+            "impossible readings, more than 0.10 m below the sensor's dry reading (no head: missing, or filled in a short gap): 1 row(s), lines 3"
         ),
         "{report}"
     );
     assert!(
-        report.contains("more water over the sensor than [logger] max_depth (flag missing): 1 row(s), lines 5"),
+        report.contains("more water over the sensor than [logger] max_depth (no head: missing, or filled in a short gap): 1 row(s), lines 5"),
         "{report}"
     );
     let f = flags(&out);
     assert_eq!(f[1], (3, "missing".to_string()));
-    assert_eq!(
-        f[2],
-        (4, "dry".to_string()),
-        "5 cm below the dry reading is noise, not impossible"
-    );
+    // 5 cm below the dry reading is not impossible, but the sensor (below the crest) reads no
+    // water over it: out of the water, not a dry channel (issue 13)
+    assert_eq!(f[2], (4, "out-of-water".to_string()), "not impossible, not dry");
     assert_eq!(f[3], (5, "missing".to_string()));
 
     // an absolute-pressure logger: a negative pressure and one far above atmosphere + water
@@ -125,16 +124,17 @@ fn impossible_readings_are_flagged_missing_never_zero_flow() {
         .arg(data("baro.csv"))
         .arg("-o")
         .arg(&out)
+        .args(["--fill-max", "0"])
         .output()
         .expect("run");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let report = String::from_utf8_lossy(&o.stdout);
     assert!(
-        report.contains("negative absolute pressure (flag missing): 1 row(s), lines 3"),
+        report.contains("negative absolute pressure (no head: missing, or filled in a short gap): 1 row(s), lines 3"),
         "{report}"
     );
     assert!(
-        report.contains("max_depth (flag missing): 1 row(s), lines 4"),
+        report.contains("max_depth (no head: missing, or filled in a short gap): 1 row(s), lines 4"),
         "{report}"
     );
     let f = flags(&out);

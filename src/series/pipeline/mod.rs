@@ -23,8 +23,10 @@ pub mod stages;
 use std::path::{Path, PathBuf};
 
 use super::convert::{Chunk, Conversion, Counts, Flag, PeriodRow};
+use super::edits::{Edits, EditsError};
 use super::output::{write_summary, SeriesWriter, TableFile};
 use super::read::{read_logger, RawSeries, ReadError};
+use super::screen::ScreeningSpec;
 use super::settings::{LoggerOverrides, LoggerSettings, SettingsError};
 use super::side::SideError;
 use super::timeline::TimelineError;
@@ -56,6 +58,9 @@ pub enum PipelineError {
     /// A side file cannot be read.
     #[error(transparent)]
     Side(#[from] SideError),
+    /// The edits file cannot be used.
+    #[error(transparent)]
+    Edits(#[from] EditsError),
     /// The rating cannot be computed.
     #[error(transparent)]
     Rating(#[from] RatingError),
@@ -85,6 +90,10 @@ pub struct ConvertOptions {
     pub visits: Option<PathBuf>,
     /// Barometric series for an absolute-pressure logger.
     pub baro: Option<PathBuf>,
+    /// The hydrographer's edits log ([`super::edits`]).
+    pub edits: Option<PathBuf>,
+    /// Screening thresholds and the gap-fill limit (the station's `[screening]` by default).
+    pub screening: ScreeningSpec,
 }
 
 impl ConvertOptions {
@@ -102,6 +111,8 @@ impl ConvertOptions {
             submerged_estimate: false,
             visits,
             baro,
+            edits: None,
+            screening: station.screening,
         })
     }
 }
@@ -171,7 +182,8 @@ pub struct ConversionReport {
 /// A conversion held in memory ([`Pipeline::convert_readings`]).
 #[derive(Debug, Clone)]
 pub struct InMemory {
-    /// Every row, converted, in input order.
+    /// Every row, converted, in input order; rows inserted into filled gaps follow the row
+    /// before them in time (their `line` is 0).
     pub rows: Chunk,
     /// Counts per flag and per case.
     pub counts: Counts,
@@ -223,7 +235,7 @@ impl<'a> Pipeline<'a> {
     fn conversion<'s>(
         &'s self,
         rating: &'s stages::RatingStage,
-        times: &'s Times,
+        timeline: &'s super::timeline::Timeline,
         stage: super::convert::StageSource,
     ) -> Conversion<'s> {
         let s = &self.options.settings;
@@ -243,33 +255,48 @@ impl<'a> Pipeline<'a> {
             tailwater: rating.tailwater.as_ref(),
             submerged_estimate: self.options.submerged_estimate,
             exponent: rating.exponent,
-            timeline: &times.timeline,
+            timeline,
             zone: s.zone,
             gravity_m_s2: self.station.structure.gravity_m_s2,
+            edits: Edits::default(),
+            screened: Default::default(),
+            input_rows: timeline.rows(),
         }
     }
 
-    /// Stage 4: the stage source and the drift correction, with what they found.
+    /// Stage 4: the stage source, the edits and the drift correction, with what they found.
     fn corrections<'s>(
         &'s self,
         rating: &'s stages::RatingStage,
-        times: &'s Times,
+        timeline: &'s super::timeline::Timeline,
+        utc: &[i64],
         raw: &RawSeries,
     ) -> Result<(Conversion<'s>, Corrections), PipelineError> {
         let s = &self.options.settings;
-        let (stage, baro_sha256) = stages::stage_source(s, self.options.baro.as_deref(), times.timeline.interval_ms)?;
-        let mut conv = self.conversion(rating, times, stage);
+        let (stage, baro_sha256) = stages::stage_source(s, self.options.baro.as_deref(), timeline.interval_ms)?;
+        let mut conv = self.conversion(rating, timeline, stage);
+        if let Some(path) = &self.options.edits {
+            conv.edits = Edits::read(path, &s.read.formats, &s.zone)?;
+        }
         let mut found = Corrections {
             baro_sha256,
             ..Default::default()
         };
         if let Some(visits) = &self.options.visits {
-            let (record, sha) = stages::drift(&conv, times, raw, visits, s)?;
+            let (record, sha) = stages::drift(&conv, utc, timeline.interval_ms, raw, visits, s)?;
             found.drift_warnings = stages::apply_drift(&mut conv, &record);
             found.drift_record = record;
             found.visits_sha256 = Some(sha);
         }
         Ok((conv, found))
+    }
+
+    /// Stage 4c: screening, edits and gap filling over the rows in time order; rows inserted
+    /// into filled gaps are added to the arrays.
+    fn screen(&self, conv: &mut Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, raw: &mut RawSeries) {
+        let sensor = stages::sensor(&self.options.settings, &self.options.screening);
+        conv.screened = stages::screen(conv, utc, raw, &self.options.screening, sensor);
+        stages::add_inserted(conv, utc, days, raw);
     }
 
     /// Runs the conversion of `logger` into `out`: every output is written to a temporary and
@@ -285,19 +312,22 @@ impl<'a> Pipeline<'a> {
         let size = std::fs::metadata(logger).map_or(0, |m| m.len());
         let mut raw = read_logger(logger, &self.options.settings.read, |n| progress.reading(n, size))?;
         timer.mark("read");
-        let times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
+        let mut times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
             path: logger.display().to_string(),
             source,
         })?;
         timer.mark("times");
         let rating = stages::rating(self.station, &self.model)?;
         timer.mark("rating");
-        let (conv, corrections) = self.corrections(&rating, &times, &raw)?;
+        let (mut conv, corrections) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
+        self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
+        timer.mark("corrections, screening");
         let mut outputs = OutputSet::new();
         let mut converted = self.write_series(&conv, &times, &raw, &rating, out, formats.0, &mut outputs, progress)?;
         timer.mark("convert and write");
-        let daily = converted.summaries.daily(&rating.inputs);
-        let monthly = converted.summaries.monthly(&rating.inputs);
+        let zone = self.options.settings.zone;
+        let daily = converted.summaries.daily(&zone, &rating.inputs);
+        let monthly = converted.summaries.monthly(&zone, &rating.inputs);
         for (p, key, rows) in [(&out.daily, "date", &daily), (&out.monthly, "month", &monthly)] {
             if let Some(p) = p {
                 let format = TableFile::from_path(p).expect("checked");
@@ -321,7 +351,9 @@ impl<'a> Pipeline<'a> {
             conv: &conv,
             corrections: &corrections,
             converted: &converted,
-            total_volume: (daily.iter().map(|d| d.volume_m3).sum(), daily.len()),
+            daily: &daily,
+            edits_path: self.options.edits.as_deref().map(|p| p.display().to_string()),
+            screening: self.options.screening,
         };
         let provenance = facts.provenance();
         let mut bytes = serde_json::to_vec_pretty(&provenance).expect("JSON values serialise");
@@ -368,7 +400,7 @@ impl<'a> Pipeline<'a> {
             }
             (writer, Ok(()))
         });
-        let order = stages::write_order(times, raw, self.options.sort);
+        let order = stages::write_order(times, raw, conv, self.options.sort);
         let total = raw.lines.len() as u64;
         let converted = stages::convert_all(
             conv,
@@ -419,33 +451,37 @@ impl<'a> Pipeline<'a> {
 
     /// The same stages on readings held in memory, without files: `times` as the logger writes
     /// them (in its formats and on its clock), `values` its value columns (stage or pressure
-    /// first). Every row comes back, converted, in input order.
+    /// first). Every row comes back, converted, in input order (with any rows inserted into
+    /// filled gaps after the row before them in time).
     pub fn convert_readings(&self, times_text: &[&str], values: Vec<Vec<f64>>) -> Result<InMemory, PipelineError> {
         let mut raw = RawSeries::from_readings(times_text, &self.options.settings.read.formats, values);
-        let times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
+        let mut times = stages::times(&mut raw, &self.options.settings).map_err(|source| PipelineError::Times {
             path: "(readings in memory)".into(),
             source,
         })?;
         let rating = stages::rating(self.station, &self.model)?;
-        let (conv, _) = self.corrections(&rating, &times, &raw)?;
+        let (mut conv, _) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
+        self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
+        let order = stages::write_order(&times, &raw, &conv, false);
         let mut rows = Chunk::default();
         let mut converted = stages::convert_all(
             &conv,
             &times,
             &raw,
             &rating.inputs,
-            None,
+            order.as_deref(),
             |chunk| {
                 rows.append(chunk);
                 true
             },
             |_| {},
         );
+        let zone = self.options.settings.zone;
         Ok(InMemory {
             rows,
             counts: converted.counts.clone(),
-            daily: converted.summaries.daily(&rating.inputs),
-            monthly: converted.summaries.monthly(&rating.inputs),
+            daily: converted.summaries.daily(&zone, &rating.inputs),
+            monthly: converted.summaries.monthly(&zone, &rating.inputs),
         })
     }
 }
@@ -455,7 +491,7 @@ fn flagged(counts: &Counts) -> usize {
     Flag::ALL
         .iter()
         .zip(counts.per_flag)
-        .filter(|(f, _)| !f.counted())
+        .filter(|(f, _)| !f.measured())
         .map(|(_, c)| c)
         .sum()
 }

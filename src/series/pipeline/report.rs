@@ -3,8 +3,9 @@
 
 use serde_json::{json, Value};
 
-use super::super::convert::{time_note_lines, Conversion, Flag, Impossible, Plausible};
+use super::super::convert::{time_note_lines, Conversion, Flag, Impossible, PeriodRow, Plausible};
 use super::super::read::RawSeries;
+use super::super::screen::{Screen, MIN_FILL_HALF_WIDTH_M};
 use super::super::settings::LoggerSettings;
 use super::stages::{Converted, Corrections, RatingStage, Times};
 use crate::report::{sig, wrap, CAUTIONS};
@@ -70,8 +71,62 @@ pub struct Facts<'a> {
     pub corrections: &'a Corrections,
     /// What converting gave.
     pub converted: &'a Converted,
-    /// Total volume of the daily summaries (m³) and their number of days.
-    pub total_volume: (f64, usize),
+    /// The daily summaries (their totals are the record's).
+    pub daily: &'a [PeriodRow],
+    /// The edits file, if any.
+    pub edits_path: Option<String>,
+    /// The screening thresholds used.
+    pub screening: super::super::screen::ScreeningSpec,
+}
+
+/// The record's totals over its daily summaries.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Totals {
+    /// Days.
+    pub days: usize,
+    /// Volume, measured plus estimated (m³).
+    pub volume_m3: f64,
+    /// Measured volume (m³).
+    pub measured_m3: f64,
+    /// Estimated volume (m³).
+    pub estimated_m3: f64,
+    /// Hours measured.
+    pub measured_h: f64,
+    /// Hours estimated.
+    pub estimated_h: f64,
+    /// Hours missing.
+    pub missing_h: f64,
+    /// Hours in the days.
+    pub period_h: f64,
+}
+
+impl Totals {
+    /// Sums daily rows.
+    pub fn of(daily: &[PeriodRow]) -> Self {
+        let mut t = Totals {
+            days: daily.len(),
+            ..Default::default()
+        };
+        for d in daily {
+            t.volume_m3 += d.volume_m3;
+            t.measured_m3 += d.volume_measured_m3;
+            t.estimated_m3 += d.volume_estimated_m3;
+            t.measured_h += d.measured_h;
+            t.estimated_h += d.estimated_h;
+            t.missing_h += d.missing_h;
+            t.period_h += d.period_h;
+        }
+        t
+    }
+
+    /// Covered share of the days (%).
+    pub fn complete_pct(&self) -> f64 {
+        if self.period_h > 0.0 {
+            100.0 * (self.measured_h + self.estimated_h) / self.period_h
+        } else {
+            f64::NAN
+        }
+    }
 }
 
 impl Facts<'_> {
@@ -85,6 +140,10 @@ impl Facts<'_> {
             "corrections": self.corrections_json(),
             "rating": self.rating_json(),
             "rows": self.rows_json(),
+            "screening": self.screening_json(),
+            "edits": self.edits_json(),
+            "gap_filling": self.filling_json(),
+            "volumes": self.volumes_json(),
             "nominal_interval_s": self.times.timeline.interval_ms as f64 / 1000.0,
             "cautions": CAUTIONS,
         })
@@ -164,7 +223,8 @@ impl Facts<'_> {
             .collect();
         let p = self.conv.plausible;
         json!({
-            "input_rows": raw.lines.len(),
+            "input_rows": self.conv.input_rows,
+            "inserted_rows": self.conv.screened.inserted.len(),
             "output_rows": c.per_flag.iter().sum::<usize>(),
             "blank_lines": bounded_lines(&raw.blank_lines),
             "per_flag": per_flag,
@@ -202,16 +262,119 @@ impl Facts<'_> {
         })
     }
 
+    fn screening_json(&self) -> Value {
+        let spec = self.station_screening();
+        let sc = &self.conv.screened;
+        json!({
+            "enabled": spec.enabled,
+            "source": "common practice, no source (thresholds from the station's [screening] table or the defaults)",
+            "rules": {
+                "out_of_water": format!("stage at or below the sensor's dry reading with the sensor below the crest, or a sudden drop from flowing water to within {} m of the dry reading and every reading after it until the stage rises above that again", spec.out_of_water_tolerance_m),
+                "spike": format!("a jump of more than {} m from the reading before that comes back within half of it within {} reading(s)", spec.spike_rise_m, spec.spike_return),
+                "flat": format!("the same logged value for {} h or longer while the head is above the crest", spec.flat_hours),
+            },
+            "rows": {
+                "out_of_water": sc.screened[Screen::OutOfWater as usize],
+                "spike": sc.screened[Screen::Spike as usize],
+                "flat": sc.screened[Screen::Flat as usize],
+            },
+        })
+    }
+
+    fn station_screening(&self) -> super::super::screen::ScreeningSpec {
+        self.screening
+    }
+
+    fn edits_json(&self) -> Value {
+        let e = &self.conv.edits;
+        let Some(path) = &self.edits_path else {
+            return Value::Null;
+        };
+        json!({
+            "file": path,
+            "sha256": e.sha256,
+            "applied": e.edits.iter().zip(&self.conv.screened.edit_rows).map(|(e, rows)| json!({
+                "line": e.line,
+                "start": e.written.0,
+                "end": e.written.1,
+                "action": e.action.as_str(),
+                "value_mm": match e.action {
+                    super::super::edits::EditAction::Offset { head_m } => json!(head_m * 1000.0),
+                    super::super::edits::EditAction::SetZero { zero_m } => json!(zero_m * 1000.0),
+                    _ => Value::Null,
+                },
+                "reason": e.reason,
+                "rows": rows,
+            })).collect::<Vec<_>>(),
+            "fill_edits_without_a_reading_on_one_side": self.conv.screened.fill_edits_failed,
+        })
+    }
+
+    fn filling_json(&self) -> Value {
+        let sc = &self.conv.screened;
+        let spec = self.station_screening();
+        let from = |code: Screen| sc.filled_from[code as usize];
+        json!({
+            "rule": format!("gaps (rows without a usable head, or time without rows) between usable readings at most {} h apart: head interpolated linearly in time, then rated; rows inserted at the nominal interval where the logger wrote none; interpolation uncertainty: half the change in head across the gap, at least {} m, as the half-width of a rectangular distribution (JCGM 100 §4.3.7), fully correlated within a period", spec.fill_max_hours, MIN_FILL_HALF_WIDTH_M),
+            "fill_max_hours": spec.fill_max_hours,
+            "gaps_filled": sc.gaps_total,
+            "rows_filled": {
+                "no_usable_head": from(Screen::Kept),
+                "excluded": from(Screen::Excluded),
+                "out_of_water": from(Screen::OutOfWater),
+                "spike": from(Screen::Spike),
+                "flat": from(Screen::Flat),
+                "fill_edit": from(Screen::FillEdit),
+            },
+            "rows_inserted": sc.inserted.len(),
+            "gaps_left_missing": { "total": sc.unfilled.0, "hours": sc.unfilled.1 },
+            "gaps": sc.gaps.iter().map(|g| json!({
+                "from_utc_ms": g.from_ms,
+                "to_utc_ms": g.to_ms,
+                "rows_filled": g.rows,
+                "rows_inserted": g.inserted,
+                "fill_edit_line": g.edit_line,
+            })).collect::<Vec<_>>(),
+        })
+    }
+
+    fn volumes_json(&self) -> Value {
+        let t = Totals::of(self.daily);
+        json!({
+            "days": t.days,
+            "volume_m3": t.volume_m3,
+            "volume_measured_m3": t.measured_m3,
+            "volume_estimated_m3": t.estimated_m3,
+            "measured_h": t.measured_h,
+            "estimated_h": t.estimated_h,
+            "missing_h": t.missing_h,
+            "period_h": t.period_h,
+            "complete_pct": t.complete_pct(),
+            "measured_flags": ["ok", "dry"],
+            "estimated_flags": ["submerged", "above-range", "below-range", "beyond-limits", "filled"],
+            "estimated_band": "twice the model's uncertainty beyond the range or the limits and for a drowned control; the interpolation error added for filled heads (common practice, no source)",
+        })
+    }
+
     /// The report printed for the user.
     pub fn text(&self) -> String {
         let mut r = self.summary_text();
         r.push_str(&self.anomaly_text());
         r.push_str(&self.order_text());
         r.push_str(&self.correction_text());
-        let (total, days) = self.total_volume;
+        r.push_str(&self.screening_text());
+        let t = Totals::of(self.daily);
         r.push_str(&format!(
-            "volume of rows flagged ok or dry: {} m³ over {days} day(s)\nprovenance: {}\n\n",
-            sig(total, 6),
+            "volume over {} day(s): {} m³ = {} m³ measured + {} m³ estimated\ntime: {:.2} h measured, {:.2} h estimated, {:.2} h missing of {:.2} h ({:.1} % complete)\nprovenance: {}\n\n",
+            t.days,
+            sig(t.volume_m3, 6),
+            sig(t.measured_m3, 6),
+            sig(t.estimated_m3, 6),
+            t.measured_h,
+            t.estimated_h,
+            t.missing_h,
+            t.period_h,
+            t.complete_pct(),
             self.paths.provenance
         ));
         r.push_str(&wrap(CAUTIONS, 100));
@@ -227,13 +390,17 @@ impl Facts<'_> {
             .map(|(f, n)| format!("{} {n}", f.as_str()))
             .collect();
         format!(
-            "flumerate convert: {} → {}\nstation: {} ({})\nrows: {} in, {} out; {} blank line(s) skipped; nominal interval {} s\nflags: {}\n",
+            "flumerate convert: {} → {}\nstation: {} ({})\nrows: {} in, {} out{}; {} blank line(s) skipped; nominal interval {} s\nflags: {}\n",
             self.paths.logger,
             self.paths.output,
             self.station.name,
             self.paths.station,
-            raw.lines.len(),
+            self.conv.input_rows,
             c.per_flag.iter().sum::<usize>(),
+            match self.conv.screened.inserted.len() {
+                0 => String::new(),
+                n => format!(" ({n} inserted into filled gaps, line 0)"),
+            },
             raw.blank_lines.len(),
             self.times.timeline.interval_ms as f64 / 1000.0,
             flags.join(", ")
@@ -245,7 +412,7 @@ impl Facts<'_> {
         if !self.raw.unreadable.is_empty() {
             let ls: Vec<u32> = self.raw.unreadable.iter().map(|u| u.0).collect();
             r.push_str(&format!(
-                "unreadable rows (flag missing), lines: {}\n",
+                "unreadable rows (no head: missing, or filled in a short gap), lines: {}\n",
                 lines_text(&ls, 20)
             ));
         }
@@ -259,7 +426,7 @@ impl Facts<'_> {
             let ls: Vec<u32> = impossible.iter().filter(|i| i.1 == why).map(|i| i.0).collect();
             if !ls.is_empty() {
                 r.push_str(&format!(
-                    "impossible readings, {} (flag missing): {} row(s), lines {}\n",
+                    "impossible readings, {} (no head: missing, or filled in a short gap): {} row(s), lines {}\n",
                     why.as_str(),
                     ls.len(),
                     lines_text(&ls, 10)
@@ -325,6 +492,65 @@ impl Facts<'_> {
         r
     }
 
+    fn screening_text(&self) -> String {
+        let sc = &self.conv.screened;
+        let spec = self.station_screening();
+        let mut r = String::new();
+        if spec.enabled {
+            r.push_str(&format!(
+                "screening: {} out-of-water, {} spike, {} flat row(s) before filling (rules in the provenance)\n",
+                sc.screened[Screen::OutOfWater as usize],
+                sc.screened[Screen::Spike as usize],
+                sc.screened[Screen::Flat as usize]
+            ));
+        } else {
+            r.push_str("screening: off\n");
+        }
+        for (e, rows) in self.conv.edits.edits.iter().zip(&sc.edit_rows) {
+            let value = match e.action {
+                super::super::edits::EditAction::Offset { head_m } => format!(" {:+} mm", head_m * 1000.0),
+                super::super::edits::EditAction::SetZero { zero_m } => format!(" {} mm", zero_m * 1000.0),
+                _ => String::new(),
+            };
+            let end = if e.written.1.is_empty() {
+                "end of record"
+            } else {
+                &e.written.1
+            };
+            r.push_str(&format!(
+                "edit (line {}): {}{value} from {} to {end}, {rows} row(s): {}\n",
+                e.line,
+                e.action.as_str(),
+                e.written.0,
+                e.reason
+            ));
+            if *rows == 0 {
+                r.push_str(&format!(
+                    "WARNING: the edit on line {} touched no rows: check its times and the logger's time zone\n",
+                    e.line
+                ));
+            }
+        }
+        for line in &sc.fill_edits_failed {
+            r.push_str(&format!(
+                "WARNING: the fill edit on line {line} has no usable reading on one side: its rows are kept as read\n"
+            ));
+        }
+        let filled: usize = sc.filled_from.iter().sum();
+        if sc.gaps_total > 0 || sc.unfilled.0 > 0 {
+            r.push_str(&format!(
+                "gaps: {} filled ({} row(s) interpolated, {} inserted; up to {} h), {} longer left missing ({:.2} h)\n",
+                sc.gaps_total,
+                filled,
+                sc.inserted.len(),
+                spec.fill_max_hours,
+                sc.unfilled.0,
+                sc.unfilled.1
+            ));
+        }
+        r
+    }
+
     fn correction_text(&self) -> String {
         let (s, c) = (self.settings, &self.converted.counts);
         let mut r = format!("gauge zero: head = stage − {} {}\n", s.zero, s.stage_unit);
@@ -333,7 +559,7 @@ impl Facts<'_> {
         }
         if c.no_baro > 0 {
             r.push_str(&format!(
-                "rows without barometric pressure within reach (flag missing): {}\n",
+                "rows without barometric pressure within reach (no head: missing, or filled in a short gap): {}\n",
                 c.no_baro
             ));
         }

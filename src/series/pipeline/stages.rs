@@ -5,6 +5,7 @@ use super::super::convert::{Chunk, Conversion, Counts, Plausible, StageSource, S
 use super::super::correct::{drift_points, drift_warnings, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use super::super::dense::DenseRating;
 use super::super::read::RawSeries;
+use super::super::screen::{Rows, Screened, ScreeningSpec, Sensor};
 use super::super::settings::LoggerSettings;
 use super::super::side::{read_side_file, SideError};
 use super::super::time::{resolve_in_place, TimeNote, NO_TIME};
@@ -151,7 +152,8 @@ pub fn plausible(settings: &LoggerSettings, station: &Station) -> Plausible {
 /// each visit, from the readings nearest in time within three intervals (at least an hour).
 pub fn drift(
     conv: &Conversion,
-    times: &Times,
+    utc: &[i64],
+    interval_ms: i64,
     raw: &RawSeries,
     visits: &std::path::Path,
     settings: &LoggerSettings,
@@ -163,16 +165,16 @@ pub fn drift(
         line: Some(1),
         problem: format!("head unit \"{unit}\": name the column head_m, head_cm, head_mm or head_ft"),
     })?;
-    let max_gap = (3 * times.timeline.interval_ms).max(3_600_000);
+    let max_gap = (3 * interval_ms).max(3_600_000);
     let mut near: Vec<(i64, f64)> = Vec::new();
     for &(tv, _) in &side.points {
         let mut before: Option<(i64, f64)> = None;
         let mut after: Option<(i64, f64)> = None;
-        for (i, &t) in times.utc.iter().enumerate() {
+        for (i, &t) in utc.iter().enumerate() {
             if t == NO_TIME || (t - tv).abs() > max_gap {
                 continue;
             }
-            let h = conv.stage_of(t, &raw.values, i).0 - conv.zero_m;
+            let h = conv.head_before_drift(t, conv.stage_of(t, &raw.values, i).0);
             if !h.is_finite() {
                 continue;
             }
@@ -207,16 +209,84 @@ pub struct Converted {
     pub buckets: HydroBuckets,
 }
 
-/// The order rows are written in: file order, or by time then line with `sort`.
-pub fn write_order(times: &Times, raw: &RawSeries, sort: bool) -> Option<Vec<u32>> {
-    sort.then(|| {
+/// The order rows are written in: file order, or by time then line with `sort`. Rows inserted
+/// into filled gaps follow the row before them in time (in file order) or take their place in
+/// time (sorted). `None` for plain file order.
+pub fn write_order(times: &Times, raw: &RawSeries, conv: &Conversion, sort: bool) -> Option<Vec<u32>> {
+    let inserted = &conv.screened.inserted;
+    if sort {
         let mut o: Vec<u32> = (0..raw.lines.len() as u32).collect();
         o.sort_by_key(|&i| {
             let t = times.utc[i as usize];
             (if t == NO_TIME { i64::MAX } else { t }, raw.lines[i as usize])
         });
-        o
-    })
+        return Some(o);
+    }
+    if inserted.is_empty() {
+        return None;
+    }
+    // inserted rows are in time order; group them by the row they follow
+    let mut after: Vec<(u32, u32)> = inserted
+        .iter()
+        .enumerate()
+        .map(|(k, r)| (r.after_row, (conv.input_rows + k) as u32))
+        .collect();
+    after.sort_by_key(|&(row, _)| row);
+    let mut o = Vec::with_capacity(raw.lines.len());
+    let mut next = 0;
+    for i in 0..conv.input_rows as u32 {
+        o.push(i);
+        while next < after.len() && after[next].0 == i {
+            o.push(after[next].1);
+            next += 1;
+        }
+    }
+    Some(o)
+}
+
+/// The sensor's dry reading and whether it sits below the crest, from the logger's settings.
+pub fn sensor(settings: &LoggerSettings, spec: &ScreeningSpec) -> Sensor {
+    let m_per = settings.metres_per_unit();
+    let dry_m = settings.dry_reading.unwrap_or(0.0) * m_per;
+    Sensor {
+        dry_m,
+        below_crest: dry_m < settings.zero * m_per - spec.out_of_water_tolerance_m,
+    }
+}
+
+/// Stage 4c: screening, edits and gap filling over the rows that stand for time, in time
+/// order ([`super::super::screen`]).
+pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningSpec, sensor: Sensor) -> Screened {
+    let order = conv.timeline.time_order(utc);
+    let rows = Rows {
+        order: &order,
+        utc,
+        raw: &raw.values[0],
+        level: |i: usize| {
+            let lv = conv.level(i, utc[i], &raw.values);
+            (lv.stage_m, lv.head_m)
+        },
+        interval_ms: conv.timeline.interval_ms,
+    };
+    super::super::screen::screen(&rows, raw.lines.len(), &conv.edits, spec, sensor)
+}
+
+/// Adds the rows inserted into filled gaps to the arrays: their instants and local days, no
+/// values, line 0.
+pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, raw: &mut RawSeries) {
+    let inserted = &conv.screened.inserted;
+    if inserted.is_empty() {
+        return;
+    }
+    for r in inserted {
+        let offset_ms = i64::from(conv.zone.offset_at_utc(r.time_ms)) * 1000;
+        utc.push(r.time_ms);
+        days.push((r.time_ms + offset_ms).div_euclid(86_400_000) as i32);
+        raw.lines.push(0);
+        for v in &mut raw.values {
+            v.push(f64::NAN);
+        }
+    }
 }
 
 /// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, each chunk on all cores; hands every
@@ -275,7 +345,7 @@ pub fn convert_all(
                             &chunk.discharge_m3s,
                             &chunk.low_m3s,
                             &chunk.high_m3s,
-                            |k| !chunk.flag[k].counted(),
+                            |k| !chunk.flag[k].measured(),
                         );
                         (chunk, c, sm, b)
                     })
@@ -305,6 +375,7 @@ pub fn convert_all(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::series::convert::Flag;
     use crate::series::settings::{LoggerOverrides, LoggerSettings};
     use crate::series::time::TimeFormat;
 
@@ -398,12 +469,15 @@ mod tests {
             timeline: &t.timeline,
             zone: s.zone,
             gravity_m_s2: 9.80665,
+            edits: Default::default(),
+            screened: Default::default(),
+            input_rows: 8,
         };
         let dir = tempfile::tempdir().expect("tempdir");
         let visits = dir.path().join("v.csv");
         // logger head 0.300 m; the staff reads 0.304 m at 03:00: +4 mm
         std::fs::write(&visits, "time,head_m\n2026-01-01T03:00:00Z,0.304\n").expect("write");
-        let (record, sha) = drift(&conv, &t, &r, &visits, &s).expect("drift");
+        let (record, sha) = drift(&conv, &t.utc, t.timeline.interval_ms, &r, &visits, &s).expect("drift");
         assert_eq!(sha.len(), 64);
         assert!((record[0].drift_m().expect("drift") - 0.004).abs() < 1e-12);
         assert!(apply_drift(&mut conv, &record).is_empty(), "4 mm is not warned about");
@@ -420,9 +494,9 @@ mod tests {
             },
             |_| {},
         );
-        assert_eq!(c.counts.per_flag[6], 8, "all ok");
+        assert_eq!(c.counts.per_flag[Flag::Ok as usize], 8, "all ok");
         assert!(rows.head_m.iter().all(|h| (h - 0.304).abs() < 1e-12));
-        let order = write_order(&t, &r, true).expect("order");
+        let order = write_order(&t, &r, &conv, true).expect("order");
         let mut sorted = Chunk::default();
         convert_all(
             &conv,
