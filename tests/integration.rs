@@ -12,6 +12,7 @@ mod integration {
     pub mod order;
     pub mod properties;
     pub mod references;
+    pub mod screening;
     pub mod sheet;
     pub mod tailwater;
     pub mod uncertainty;

@@ -8,9 +8,11 @@ use std::process::ExitCode;
 
 use clap::Args;
 use flumerate::files::FileError;
+use flumerate::series::output::CsvStyle;
 use flumerate::series::pipeline::{ConvertOptions, OutputPaths, Pipeline, Progress};
 use flumerate::series::settings::LoggerOverrides;
 use flumerate::station::Station;
+use flumerate::units::{FlowUnit, VolumeUnit};
 
 use super::output::print;
 
@@ -33,6 +35,9 @@ pub struct ConvertArgs {
     /// Hydrograph with the 95 % band: FILE.png or FILE.svg
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
+    /// Add a panel of the head below the hydrograph
+    #[arg(long = "plot-stage", requires = "plot")]
+    pub plot_stage: bool,
     /// Provenance record [default: OUT.provenance.json]
     #[arg(long, value_name = "FILE")]
     pub provenance: Option<PathBuf>,
@@ -54,6 +59,17 @@ pub struct ConvertArgs {
     /// station's [screening] fill_max_hours, or 2h]
     #[arg(long = "fill-max", value_name = "DURATION", value_parser = hours)]
     pub fill_max: Option<f64>,
+    /// Discharge unit of the series and summaries: m3/s, L/s, m3/h, ML/d, cfs, gpm, Mgal/d
+    #[arg(long = "flow-unit", value_name = "UNIT", default_value = "m3/s", value_parser = |s: &str| s.parse::<FlowUnit>())]
+    pub flow_unit: FlowUnit,
+    /// Volume unit of the summaries: m3, ML, acre-ft, Mgal
+    #[arg(long = "volume-unit", value_name = "UNIT", default_value = "m3", value_parser = |s: &str| s.parse::<VolumeUnit>())]
+    pub volume_unit: VolumeUnit,
+    /// CSV style: standard (full precision, ISO 8601 times with offset), spreadsheet (UTC and
+    /// local time columns, values rounded to what the measurement supports), spreadsheet-comma
+    /// (the same with decimal commas and semicolons)
+    #[arg(long = "csv-style", value_enum, default_value_t = StyleArg::Standard)]
+    pub csv_style: StyleArg,
     /// Write rows sorted by time (then by line) instead of in input order
     #[arg(long)]
     pub sort: bool,
@@ -114,6 +130,27 @@ pub struct ConvertArgs {
     /// Water temperature (°C) where none is logged [default: 10]
     #[arg(long = "water-temperature", value_parser = super::finite_number, allow_hyphen_values = true)]
     pub water_temperature: Option<f64>,
+}
+
+/// `--csv-style`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum StyleArg {
+    /// full precision, ISO 8601 times with their offset
+    Standard,
+    /// UTC and local time columns, rounded values
+    Spreadsheet,
+    /// spreadsheet, with decimal commas and semicolons
+    SpreadsheetComma,
+}
+
+impl From<StyleArg> for CsvStyle {
+    fn from(s: StyleArg) -> Self {
+        match s {
+            StyleArg::Standard => CsvStyle::Standard,
+            StyleArg::Spreadsheet => CsvStyle::Spreadsheet { decimal_comma: false },
+            StyleArg::SpreadsheetComma => CsvStyle::Spreadsheet { decimal_comma: true },
+        }
+    }
 }
 
 impl ConvertArgs {
@@ -244,6 +281,10 @@ pub fn run(a: ConvertArgs) -> anyhow::Result<ExitCode> {
     let mut options = ConvertOptions::new(&station, &a.overrides(), a.visits.clone(), a.baro.clone())?;
     options.sort = a.sort;
     options.edits = a.edits.clone();
+    options.flow_unit = a.flow_unit;
+    options.volume_unit = a.volume_unit;
+    options.csv_style = a.csv_style.into();
+    options.plot_stage = a.plot_stage;
     if a.no_screening {
         options.screening.enabled = false;
     }

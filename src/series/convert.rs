@@ -268,6 +268,8 @@ pub struct Conversion<'a> {
     /// Rows read from the file; rows past them are inserted into filled gaps
     /// ([`Screened::inserted`], in order).
     pub input_rows: usize,
+    /// Value-column index of a logged water temperature (°C), written beside each row.
+    pub temperature_column: Option<usize>,
 }
 
 /// The converted rows of one output chunk (columns).
@@ -292,6 +294,13 @@ pub struct Chunk {
     /// For rows whose instant other rows hold too: the line of the row that counts for it
     /// (0 where the row holds its instant alone).
     pub counted_line: Vec<u32>,
+    /// The logged tailwater level above the crest (m), when the logger logs one (else empty).
+    pub tailwater_m: Vec<f64>,
+    /// The submergence H2/H1 where a logged tailwater and a rated head give one (else NaN;
+    /// empty without a logged tailwater).
+    pub submergence: Vec<f64>,
+    /// The logged water temperature (°C), when the logger logs one (else empty).
+    pub temperature_c: Vec<f64>,
 }
 
 /// Counts for the report.
@@ -352,6 +361,9 @@ impl Chunk {
         self.flag.extend(o.flag);
         self.line.extend(o.line);
         self.counted_line.extend(o.counted_line);
+        self.tailwater_m.extend(o.tailwater_m);
+        self.submergence.extend(o.submergence);
+        self.temperature_c.extend(o.temperature_c);
     }
 }
 
@@ -787,6 +799,7 @@ impl Conversion<'_> {
             flag: Vec::with_capacity(n),
             line: Vec::with_capacity(n),
             counted_line: Vec::with_capacity(n),
+            ..Chunk::default()
         };
         for &i in order {
             let t = utc[i];
@@ -801,6 +814,13 @@ impl Conversion<'_> {
             c.head_m.push(self.fill_of(i).map_or(lv.head_m, |f| f.head_m));
             c.line.push(lines[i]);
             c.counted_line.push(self.timeline.counted_line(i).unwrap_or(0));
+            if let Some((col, per, zero)) = self.tailwater_column {
+                c.tailwater_m.push(values[col][i] * per - zero);
+                c.submergence.push(f64::NAN);
+            }
+            if let Some(col) = self.temperature_column {
+                c.temperature_c.push(values[col][i]);
+            }
         }
         c
     }
@@ -955,6 +975,7 @@ impl Conversion<'_> {
         let q = c.discharge_m3s[k];
         let v2 = self.tailwater.map_or(0.0, |t| t.velocity_m_s(q, level));
         let s = (level + v2 * v2 / (2.0 * self.gravity_m_s2)) / r.energy_head_m;
+        c.submergence[k] = s;
         if s <= r.modular_limit {
             return false;
         }

@@ -20,7 +20,8 @@ use polars_parquet::write::{
 };
 
 use super::convert::{Chunk, Flag, PeriodRow};
-use super::time::NO_TIME;
+use super::time::{Zone, NO_TIME};
+use crate::units::{FlowUnit, VolumeUnit};
 
 /// Output file formats.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -47,42 +48,190 @@ enum Inner {
     Parquet(Box<ParquetSink>),
 }
 
+/// How the series and summaries are laid out: the units people report in, the CSV style and
+/// the evidence columns.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Layout {
+    /// Discharge unit of the series and the summaries.
+    pub flow: FlowUnit,
+    /// Volume unit of the summaries.
+    pub volume: VolumeUnit,
+    /// CSV style (Parquet files are always standard).
+    pub style: CsvStyle,
+    /// The logger's clock, for the local time column of the spreadsheet style.
+    pub zone: Zone,
+    /// Write the logged tailwater and the submergence.
+    pub tailwater: bool,
+    /// Write the logged water temperature.
+    pub temperature: bool,
+}
+
+impl Default for Layout {
+    fn default() -> Self {
+        Self {
+            flow: FlowUnit::default(),
+            volume: VolumeUnit::default(),
+            style: CsvStyle::Standard,
+            zone: Zone::Fixed(0),
+            tailwater: false,
+            temperature: false,
+        }
+    }
+}
+
+/// The style of CSV outputs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum CsvStyle {
+    /// Full precision, ISO 8601 times with their offset, comma separated.
+    #[default]
+    Standard,
+    /// For spreadsheets: `time_utc` and `time_local` (the logger's clock, without offset)
+    /// columns, values rounded to what the measurement supports ([`Rounding`]); with
+    /// `decimal_comma`, a decimal comma and semicolons between fields.
+    Spreadsheet {
+        /// Decimal comma and semicolon separator.
+        decimal_comma: bool,
+    },
+}
+
+/// Rounding of the spreadsheet style (common practice, no source): stage, head and tailwater
+/// to 1 mm (a water-level record rarely resolves less), discharges to 3 significant figures,
+/// volumes to 4, submergence to 0.001, temperature to 0.1 °C, hours and percentages to 0.01.
+#[derive(Debug, Clone, Copy)]
+pub struct Rounding;
+
+impl Rounding {
+    /// `v` to `decimals` decimals.
+    pub fn decimals(v: f64, decimals: i32) -> f64 {
+        if !v.is_finite() {
+            return v;
+        }
+        let f = 10f64.powi(decimals);
+        (v * f).round() / f + 0.0
+    }
+
+    /// `v` to `figures` significant figures.
+    pub fn figures(v: f64, figures: i32) -> f64 {
+        if !v.is_finite() || v == 0.0 {
+            return v;
+        }
+        let magnitude = v.abs().log10().floor() as i32;
+        Self::decimals(v, figures - 1 - magnitude)
+    }
+}
+
+/// The float columns before `flag`; the rest are evidence columns after `counted_line`.
+const MAIN_FLOATS: usize = 5;
+
+/// What a float column holds, for its unit and rounding.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Kind {
+    Length,
+    Discharge,
+    Ratio,
+    Temperature,
+}
+
 /// Writes converted chunks.
 pub struct SeriesWriter {
     inner: Inner,
     tz: Option<TimeZone>,
+    layout: Layout,
+    /// Float columns: name and kind, in output order.
+    floats: Vec<(String, Kind)>,
 }
 
 /// The float columns of a converted series, in output order (design.md): `time` comes before
-/// them, `flag` and `line` after.
-const FLOAT_COLUMNS: [&str; 5] = [
-    "stage_m",
-    "head_m",
-    "discharge_m3s",
-    "discharge_low_m3s",
-    "discharge_high_m3s",
-];
+/// the first five, then `flag`, `line` and `counted_line`, then the evidence columns (the rest).
+fn float_names(layout: &Layout) -> Vec<(String, Kind)> {
+    let q = layout.flow.suffix();
+    let mut v = vec![
+        ("stage_m".to_string(), Kind::Length),
+        ("head_m".to_string(), Kind::Length),
+        (format!("discharge_{q}"), Kind::Discharge),
+        (format!("discharge_low_{q}"), Kind::Discharge),
+        (format!("discharge_high_{q}"), Kind::Discharge),
+    ];
+    if layout.tailwater {
+        v.push(("tailwater_m".to_string(), Kind::Length));
+        v.push(("submergence".to_string(), Kind::Ratio));
+    }
+    if layout.temperature {
+        v.push(("temperature_c".to_string(), Kind::Temperature));
+    }
+    v
+}
 
-/// A chunk's float columns, in the order of [`FLOAT_COLUMNS`].
-fn float_columns(c: &mut Chunk) -> [Vec<f64>; 5] {
-    [
+/// A chunk's float columns in the order of [`float_names`], in the layout's units (rounded in
+/// the spreadsheet style).
+fn float_columns(c: &mut Chunk, layout: &Layout) -> Vec<Vec<f64>> {
+    let mut cols = vec![
         std::mem::take(&mut c.stage_m),
         std::mem::take(&mut c.head_m),
         std::mem::take(&mut c.discharge_m3s),
         std::mem::take(&mut c.low_m3s),
         std::mem::take(&mut c.high_m3s),
-    ]
+    ];
+    let mut kinds = vec![
+        Kind::Length,
+        Kind::Length,
+        Kind::Discharge,
+        Kind::Discharge,
+        Kind::Discharge,
+    ];
+    if layout.tailwater {
+        cols.push(std::mem::take(&mut c.tailwater_m));
+        cols.push(std::mem::take(&mut c.submergence));
+        kinds.extend([Kind::Length, Kind::Ratio]);
+    }
+    if layout.temperature {
+        cols.push(std::mem::take(&mut c.temperature_c));
+        kinds.push(Kind::Temperature);
+    }
+    let spreadsheet = matches!(layout.style, CsvStyle::Spreadsheet { .. });
+    for (col, kind) in cols.iter_mut().zip(kinds) {
+        if kind == Kind::Discharge && layout.flow != FlowUnit::CubicMetresPerSecond {
+            col.iter_mut().for_each(|v| *v = layout.flow.from_si(*v));
+        }
+        if spreadsheet {
+            match kind {
+                Kind::Length => col.iter_mut().for_each(|v| *v = Rounding::decimals(*v, 3)),
+                Kind::Discharge => col.iter_mut().for_each(|v| *v = Rounding::figures(*v, 3)),
+                Kind::Ratio => col.iter_mut().for_each(|v| *v = Rounding::decimals(*v, 3)),
+                Kind::Temperature => col.iter_mut().for_each(|v| *v = Rounding::decimals(*v, 1)),
+            }
+        }
+    }
+    cols
 }
 
-fn series_schema(tz: Option<TimeZone>) -> Schema {
-    let time = Field::new("time".into(), DataType::Datetime(TimeUnit::Milliseconds, tz));
-    let floats = FLOAT_COLUMNS.map(|n| Field::new(n.into(), DataType::Float64));
-    let rest = [
+fn series_schema(tz: Option<TimeZone>, layout: &Layout) -> Schema {
+    let mut fields = match layout.style {
+        CsvStyle::Standard => vec![Field::new(
+            "time".into(),
+            DataType::Datetime(TimeUnit::Milliseconds, tz),
+        )],
+        CsvStyle::Spreadsheet { .. } => vec![
+            Field::new(
+                "time_utc".into(),
+                DataType::Datetime(TimeUnit::Milliseconds, Some(TimeZone::UTC)),
+            ),
+            Field::new("time_local".into(), DataType::Datetime(TimeUnit::Milliseconds, None)),
+        ],
+    };
+    let floats = float_names(layout);
+    for (name, _) in &floats[..MAIN_FLOATS] {
+        fields.push(Field::new(name.into(), DataType::Float64));
+    }
+    fields.extend([
         Field::new("flag".into(), DataType::String),
         Field::new("line".into(), DataType::UInt32),
         Field::new("counted_line".into(), DataType::UInt32),
-    ];
-    Schema::from_iter(std::iter::once(time).chain(floats).chain(rest))
+    ]);
+    for (name, _) in &floats[MAIN_FLOATS..] {
+        fields.push(Field::new(name.into(), DataType::Float64));
+    }
+    Schema::from_iter(fields)
 }
 
 /// Validity of a float column: non-finite values become nulls (`None` when there are none).
@@ -97,9 +246,7 @@ fn finite_validity(v: &[f64]) -> Option<Bitmap> {
 /// Validity of the counted-line column: rows that hold their instant alone have none (`None`
 /// when no row has one).
 fn line_validity(l: &[u32]) -> Option<Bitmap> {
-    l.iter()
-        .any(|l| *l != 0)
-        .then(|| l.iter().map(|l| *l != 0).collect::<Bitmap>())
+    Some(l.iter().map(|l| *l != 0).collect::<Bitmap>())
 }
 
 /// Validity of a time column: rows without a time become nulls (`None` when all have one).
@@ -117,39 +264,35 @@ fn opt(name: &str, v: Vec<f64>) -> Column {
 /// The Parquet side: each chunk becomes one row group, its columns encoded on two threads
 /// with encodings chosen for the data (polars-parquet does the encoding):
 /// times and line numbers as deltas (they mostly step by a constant), the flag through a
-/// six-word dictionary, floats plain. No compression and no column statistics: on a logger
+/// twelve-word dictionary, floats plain. No compression and no column statistics: on a logger
 /// series they shrink the file by a few per cent at several times the cost.
 struct ParquetSink {
     writer: FileWriter<BufWriter<File>>,
     types: Vec<ParquetType>,
+    encodings: Vec<Encoding>,
     options: WriteOptions,
     time_type: ArrowDataType,
     flag_words: Utf8ViewArray,
 }
 
-/// Encodings of the nine columns, in schema order.
-const PARQUET_ENCODINGS: [Encoding; 9] = [
-    Encoding::DeltaBinaryPacked,
-    Encoding::Plain,
-    Encoding::Plain,
-    Encoding::Plain,
-    Encoding::Plain,
-    Encoding::Plain,
-    Encoding::RleDictionary,
-    Encoding::DeltaBinaryPacked,
-    Encoding::Plain,
-];
-
 impl ParquetSink {
-    fn new(file: File, tz: Option<&TimeZone>) -> PolarsResult<Self> {
+    fn new(file: File, tz: Option<&TimeZone>, layout: &Layout) -> PolarsResult<Self> {
         let time_type = ArrowDataType::Timestamp(ArrowTimeUnit::Millisecond, tz.map(|z| z.as_str().into()));
         let mut fields = vec![ArrowField::new("time".into(), time_type.clone(), true)];
-        for name in FLOAT_COLUMNS {
+        let mut encodings = vec![Encoding::DeltaBinaryPacked];
+        let floats = float_names(layout);
+        for (name, _) in &floats[..MAIN_FLOATS] {
             fields.push(ArrowField::new(name.into(), ArrowDataType::Float64, true));
+            encodings.push(Encoding::Plain);
         }
         fields.push(ArrowField::new("flag".into(), ArrowDataType::Utf8View, false));
         fields.push(ArrowField::new("line".into(), ArrowDataType::UInt32, false));
         fields.push(ArrowField::new("counted_line".into(), ArrowDataType::UInt32, true));
+        encodings.extend([Encoding::RleDictionary, Encoding::DeltaBinaryPacked, Encoding::Plain]);
+        for (name, _) in &floats[MAIN_FLOATS..] {
+            fields.push(ArrowField::new(name.into(), ArrowDataType::Float64, true));
+            encodings.push(Encoding::Plain);
+        }
         let types = fields.iter().map(to_parquet_type).collect::<PolarsResult<Vec<_>>>()?;
         let options = WriteOptions {
             statistics: StatisticsOptions::empty(),
@@ -162,6 +305,7 @@ impl ParquetSink {
         Ok(Self {
             writer,
             types,
+            encodings,
             options,
             time_type,
             flag_words: Utf8ViewArray::from_slice_values(Flag::ALL.map(Flag::as_str)),
@@ -175,7 +319,7 @@ impl ParquetSink {
             array,
             self.types[column].clone(),
             self.options,
-            &[PARQUET_ENCODINGS[column]],
+            &[self.encodings[column]],
         )? {
             let pages = pages.map(|p| p.map_err(|e| ParquetError::FeatureNotSupported(e.to_string())));
             for page in Compressor::new(pages, self.options.compression, Vec::new()) {
@@ -185,9 +329,9 @@ impl ParquetSink {
         Ok(out)
     }
 
-    fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
+    fn write(&mut self, mut c: Chunk, layout: &Layout) -> PolarsResult<()> {
         let height = c.line.len();
-        let floats = float_columns(&mut c);
+        let floats = float_columns(&mut c, layout);
         let time_valid = time_validity(&c.time_ms);
         let float = |v: Vec<f64>| -> Box<dyn Array> {
             let validity = finite_validity(&v);
@@ -205,18 +349,21 @@ impl ParquetSink {
                 .to(self.time_type.clone())
                 .with_validity(time_valid),
         )];
-        arrays.extend(floats.map(float));
+        let mut floats = floats.into_iter();
+        arrays.extend(floats.by_ref().take(MAIN_FLOATS).map(float));
         arrays.push(Box::new(flags));
         arrays.push(Box::new(PrimitiveArray::<u32>::from_vec(c.line)));
         let counted_valid = line_validity(&c.counted_line);
         arrays.push(Box::new(
             PrimitiveArray::<u32>::from_vec(c.counted_line).with_validity(counted_valid),
         ));
-        // columns 0–3 on this thread, 4–8 on a helper: about the same bytes each
+        arrays.extend(floats.map(float));
+        // the first four columns on this thread, the rest on a helper: about the same bytes each
+        let n = arrays.len();
         let this = &*self;
         let pages: Vec<Vec<CompressedPage>> = std::thread::scope(|scope| {
             let helper = scope.spawn(|| {
-                (4..9)
+                (4..n)
                     .map(|k| this.encode(arrays[k].as_ref(), k))
                     .collect::<PolarsResult<Vec<_>>>()
             });
@@ -242,38 +389,86 @@ impl ParquetSink {
     }
 }
 
+/// A CSV writer in `style`; `datetime` the format of its time columns.
+fn csv_writer(file: File, style: CsvStyle, datetime: &str) -> CsvWriter<File> {
+    let w = CsvWriter::new(file)
+        .include_header(true)
+        .with_datetime_format(Some(datetime.into()))
+        .with_float_scientific(None);
+    match style {
+        CsvStyle::Spreadsheet { decimal_comma: true } => w.with_separator(b';').with_decimal_comma(true),
+        _ => w,
+    }
+}
+
 impl SeriesWriter {
     /// A writer into `file` in `format`; `zone` names the time zone of the output's time
-    /// column (UTC when `None`).
-    pub fn new(file: File, format: TableFile, zone: Option<&str>) -> PolarsResult<Self> {
+    /// column (UTC when `None`); `layout` the units, style and evidence columns.
+    pub fn new(file: File, format: TableFile, zone: Option<&str>, layout: Layout) -> PolarsResult<Self> {
         let tz = TimeZone::opt_try_new(Some(zone.unwrap_or("UTC")))?;
         let inner = match format {
-            TableFile::Csv => Inner::Csv(
-                CsvWriter::new(file)
-                    .include_header(true)
-                    .with_datetime_format(Some("%Y-%m-%dT%H:%M:%S%:z".into()))
-                    .with_float_scientific(None)
-                    .batched(&series_schema(tz.clone()))?,
-            ),
-            TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(file, tz.as_ref())?)),
+            TableFile::Csv => {
+                let datetime = match layout.style {
+                    CsvStyle::Standard => "%Y-%m-%dT%H:%M:%S%:z",
+                    CsvStyle::Spreadsheet { .. } => "%Y-%m-%d %H:%M:%S",
+                };
+                Inner::Csv(csv_writer(file, layout.style, datetime).batched(&series_schema(tz.clone(), &layout))?)
+            }
+            TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(file, tz.as_ref(), &layout)?)),
         };
-        Ok(Self { inner, tz })
+        Ok(Self {
+            inner,
+            tz,
+            floats: float_names(&layout),
+            layout,
+        })
+    }
+
+    /// The time columns of a CSV chunk.
+    fn time_columns(&self, time_ms: Vec<i64>) -> Vec<Column> {
+        let validity = time_validity(&time_ms);
+        match self.layout.style {
+            CsvStyle::Standard => {
+                let time = Int64Chunked::from_vec_validity("time".into(), time_ms, validity)
+                    .into_datetime(TimeUnit::Milliseconds, self.tz.clone());
+                vec![time.into_series().with_name("time".into()).into_column()]
+            }
+            CsvStyle::Spreadsheet { .. } => {
+                let zone = self.layout.zone;
+                let local: Vec<i64> = time_ms
+                    .iter()
+                    .map(|&t| {
+                        if t == NO_TIME {
+                            t
+                        } else {
+                            t + i64::from(zone.offset_at_utc(t)) * 1000
+                        }
+                    })
+                    .collect();
+                let utc = Int64Chunked::from_vec_validity("time_utc".into(), time_ms, validity.clone())
+                    .into_datetime(TimeUnit::Milliseconds, Some(TimeZone::UTC));
+                let local = Int64Chunked::from_vec_validity("time_local".into(), local, validity)
+                    .into_datetime(TimeUnit::Milliseconds, None);
+                vec![
+                    utc.into_series().with_name("time_utc".into()).into_column(),
+                    local.into_series().with_name("time_local".into()).into_column(),
+                ]
+            }
+        }
     }
 
     /// Appends one chunk (taking its columns without copying them).
     pub fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
-        let w = match &mut self.inner {
-            Inner::Csv(w) => w,
-            Inner::Parquet(p) => return p.write(c),
-        };
+        let layout = self.layout;
+        if let Inner::Parquet(p) = &mut self.inner {
+            return p.write(c, &layout);
+        }
         let height = c.line.len();
-        let floats = float_columns(&mut c);
-        let validity = time_validity(&c.time_ms);
-        let time = Int64Chunked::from_vec_validity("time".into(), c.time_ms, validity)
-            .into_datetime(TimeUnit::Milliseconds, self.tz.clone());
+        let floats = float_columns(&mut c, &layout);
+        let mut cols = self.time_columns(std::mem::take(&mut c.time_ms));
         let flag: StringChunked = c.flag.iter().map(|f| Some(f.as_str())).collect();
-        let mut cols = vec![time.into_series().with_name("time".into()).into_column()];
-        cols.extend(FLOAT_COLUMNS.into_iter().zip(floats).map(|(name, v)| opt(name, v)));
+        let mut named = self.floats.iter().zip(floats).map(|((name, _), v)| opt(name, v));
+        cols.extend(named.by_ref().take(MAIN_FLOATS));
         cols.push(flag.into_series().with_name("flag".into()).into_column());
         cols.push(
             UInt32Chunked::from_vec("line".into(), c.line)
@@ -286,7 +481,11 @@ impl SeriesWriter {
                 .into_series()
                 .into_column(),
         );
-        w.write_batch(&DataFrame::new(height, cols)?)
+        cols.extend(named);
+        match &mut self.inner {
+            Inner::Csv(w) => w.write_batch(&DataFrame::new(height, cols)?),
+            Inner::Parquet(_) => unreachable!("handled above"),
+        }
     }
 
     /// Finishes the file.
@@ -299,12 +498,32 @@ impl SeriesWriter {
     }
 }
 
-/// Writes summary rows to `file` as CSV or Parquet. `key` names the period column.
-pub fn write_summary(file: File, format: TableFile, key: &str, rows: &[PeriodRow]) -> PolarsResult<()> {
-    let f = |g: fn(&PeriodRow) -> f64| -> Float64Chunked {
-        rows.iter().map(|r| Some(g(r)).filter(|v| v.is_finite())).collect()
+/// Writes summary rows to `file` as CSV or Parquet. `key` names the period column; `layout`
+/// gives the units of discharge and volume and the CSV style.
+pub fn write_summary(
+    file: File,
+    format: TableFile,
+    key: &str,
+    rows: &[PeriodRow],
+    layout: &Layout,
+) -> PolarsResult<()> {
+    let spreadsheet = matches!(layout.style, CsvStyle::Spreadsheet { .. }) && format == TableFile::Csv;
+    let (flow, volume) = (layout.flow, layout.volume);
+    let f = |g: &dyn Fn(&PeriodRow) -> f64, round: &dyn Fn(f64) -> f64| -> Float64Chunked {
+        rows.iter()
+            .map(|r| {
+                let v = g(r);
+                Some(if spreadsheet { round(v) } else { v }).filter(|v| v.is_finite())
+            })
+            .collect()
     };
     let named = |ca: Float64Chunked, n: &str| ca.into_series().with_name(n.into()).into_column();
+    let q = |g: fn(&PeriodRow) -> f64| move |r: &PeriodRow| flow.from_si(g(r));
+    let v = |g: fn(&PeriodRow) -> f64| move |r: &PeriodRow| volume.from_si(g(r));
+    let (qs, vs) = (flow.suffix(), volume.suffix());
+    let q3 = |x: f64| Rounding::figures(x, 3);
+    let v4 = |x: f64| Rounding::figures(x, 4);
+    let d2 = |x: f64| Rounding::decimals(x, 2);
     let label: StringChunked = rows.iter().map(|r| Some(r.label.as_str())).collect();
     let cols = vec![
         label.into_series().with_name(key.into()).into_column(),
@@ -314,25 +533,36 @@ pub fn write_summary(file: File, format: TableFile, key: &str, rows: &[PeriodRow
             rows.iter().map(|r| r.rows_counted as u32).collect(),
         )
         .into_column(),
-        named(f(|r| r.rows_measured as f64 / r.rows.max(1) as f64), "share_ok"),
-        named(f(|r| r.mean_m3s), "mean_discharge_m3s"),
-        named(f(|r| r.min_m3s), "min_discharge_m3s"),
-        named(f(|r| r.max_m3s), "max_discharge_m3s"),
-        named(f(|r| r.volume_m3), "volume_m3"),
-        named(f(|r| r.volume_measured_m3), "volume_measured_m3"),
-        named(f(|r| r.volume_estimated_m3), "volume_estimated_m3"),
-        named(f(|r| r.volume_u95_m3), "volume_u95_m3"),
-        named(f(|r| r.volume_u_systematic_m3), "volume_u_systematic_m3"),
-        named(f(|r| r.volume_u_random_m3), "volume_u_random_m3"),
-        named(f(|r| r.covered_h), "covered_h"),
-        named(f(|r| r.measured_h), "measured_h"),
-        named(f(|r| r.estimated_h), "estimated_h"),
-        named(f(|r| r.missing_h), "missing_h"),
-        named(f(|r| r.complete_pct), "complete_pct"),
+        named(
+            f(&|r| r.rows_measured as f64 / r.rows.max(1) as f64, &|x| {
+                Rounding::decimals(x, 4)
+            }),
+            "share_ok",
+        ),
+        named(f(&q(|r| r.mean_m3s), &q3), &format!("mean_discharge_{qs}")),
+        named(f(&q(|r| r.min_m3s), &q3), &format!("min_discharge_{qs}")),
+        named(f(&q(|r| r.max_m3s), &q3), &format!("max_discharge_{qs}")),
+        named(f(&v(|r| r.volume_m3), &v4), &format!("volume_{vs}")),
+        named(f(&v(|r| r.volume_measured_m3), &v4), &format!("volume_measured_{vs}")),
+        named(f(&v(|r| r.volume_estimated_m3), &v4), &format!("volume_estimated_{vs}")),
+        named(f(&v(|r| r.volume_u95_m3), &v4), &format!("volume_u95_{vs}")),
+        named(
+            f(&v(|r| r.volume_u_systematic_m3), &v4),
+            &format!("volume_u_systematic_{vs}"),
+        ),
+        named(f(&v(|r| r.volume_u_random_m3), &v4), &format!("volume_u_random_{vs}")),
+        named(f(&|r| r.covered_h, &d2), "covered_h"),
+        named(f(&|r| r.measured_h, &d2), "measured_h"),
+        named(f(&|r| r.estimated_h, &d2), "estimated_h"),
+        named(f(&|r| r.missing_h, &d2), "missing_h"),
+        named(f(&|r| r.complete_pct, &d2), "complete_pct"),
     ];
     let mut df = DataFrame::new(rows.len(), cols)?;
     match format {
-        TableFile::Csv => CsvWriter::new(file).include_header(true).finish(&mut df)?,
+        TableFile::Csv => {
+            let style = if spreadsheet { layout.style } else { CsvStyle::Standard };
+            csv_writer(file, style, "%Y-%m-%d").finish(&mut df)?
+        }
         TableFile::Parquet => {
             ParquetWriter::new(file).finish(&mut df)?;
         }

@@ -24,7 +24,7 @@ use std::path::{Path, PathBuf};
 
 use super::convert::{Chunk, Conversion, Counts, Flag, PeriodRow};
 use super::edits::{Edits, EditsError};
-use super::output::{write_summary, SeriesWriter, TableFile};
+use super::output::{write_summary, CsvStyle, Layout, SeriesWriter, TableFile};
 use super::read::{read_logger, RawSeries, ReadError};
 use super::screen::ScreeningSpec;
 use super::settings::{LoggerOverrides, LoggerSettings, SettingsError};
@@ -32,8 +32,10 @@ use super::side::SideError;
 use super::timeline::TimelineError;
 use crate::files::{FileError, OutputSet};
 use crate::rating::{RatingError, RatingModel};
-use crate::report::plot::{hydrograph, ImageFormat};
+use crate::report::hydrograph::{hydrograph, HydroChart};
+use crate::report::plot::ImageFormat;
 use crate::station::Station;
+use crate::units::{FlowUnit, VolumeUnit};
 use report::{Facts, Paths};
 use stages::{Converted, Corrections, Times};
 
@@ -94,6 +96,14 @@ pub struct ConvertOptions {
     pub edits: Option<PathBuf>,
     /// Screening thresholds and the gap-fill limit (the station's `[screening]` by default).
     pub screening: ScreeningSpec,
+    /// Discharge unit of the series and summaries.
+    pub flow_unit: FlowUnit,
+    /// Volume unit of the summaries.
+    pub volume_unit: VolumeUnit,
+    /// Style of CSV outputs.
+    pub csv_style: CsvStyle,
+    /// A panel of the head below the hydrograph.
+    pub plot_stage: bool,
 }
 
 impl ConvertOptions {
@@ -113,6 +123,10 @@ impl ConvertOptions {
             baro,
             edits: None,
             screening: station.screening,
+            flow_unit: FlowUnit::default(),
+            volume_unit: VolumeUnit::default(),
+            csv_style: CsvStyle::Standard,
+            plot_stage: false,
         })
     }
 }
@@ -231,6 +245,19 @@ impl<'a> Pipeline<'a> {
         &self.options
     }
 
+    /// How the outputs are laid out.
+    fn layout(&self) -> Layout {
+        let s = &self.options.settings;
+        Layout {
+            flow: self.options.flow_unit,
+            volume: self.options.volume_unit,
+            style: self.options.csv_style,
+            zone: s.zone,
+            tailwater: s.tailwater_index.is_some(),
+            temperature: s.temperature_index.is_some(),
+        }
+    }
+
     /// The conversion set-up for rows whose times are `times` (stage 4, before any drift).
     fn conversion<'s>(
         &'s self,
@@ -261,6 +288,7 @@ impl<'a> Pipeline<'a> {
             edits: Edits::default(),
             screened: Default::default(),
             input_rows: timeline.rows(),
+            temperature_column: s.temperature_index,
         }
     }
 
@@ -309,6 +337,12 @@ impl<'a> Pipeline<'a> {
     ) -> Result<ConversionReport, PipelineError> {
         let mut timer = Timer::new();
         let formats = check_formats(out)?;
+        if self.options.csv_style != CsvStyle::Standard && formats.0 == TableFile::Parquet {
+            return Err(PipelineError::Output {
+                path: out.series.display().to_string(),
+                message: "the spreadsheet CSV style is for CSV files; the series is Parquet\n  fix: write the series to a .csv file, or leave the style out".into(),
+            });
+        }
         let size = std::fs::metadata(logger).map_or(0, |m| m.len());
         let mut raw = read_logger(logger, &self.options.settings.read, |n| progress.reading(n, size))?;
         timer.mark("read");
@@ -331,11 +365,14 @@ impl<'a> Pipeline<'a> {
         for (p, key, rows) in [(&out.daily, "date", &daily), (&out.monthly, "month", &monthly)] {
             if let Some(p) = p {
                 let format = TableFile::from_path(p).expect("checked");
-                write_summary(outputs.create(p)?, format, key, rows).map_err(|e| output_error(p, e))?;
+                write_summary(outputs.create(p)?, format, key, rows, &self.layout()).map_err(|e| output_error(p, e))?;
             }
         }
         if let (Some(p), Some(fmt)) = (&out.plot, formats.1) {
-            outputs.write(p, &self.plot(&converted, fmt).map_err(|e| output_error(p, e))?)?;
+            let image = self
+                .plot(&converted, &conv, &corrections, fmt)
+                .map_err(|e| output_error(p, e))?;
+            outputs.write(p, &image)?;
         }
         let paths = self.paths(logger, out);
         let facts = Facts {
@@ -389,7 +426,8 @@ impl<'a> Pipeline<'a> {
     ) -> Result<Converted, PipelineError> {
         let file = outputs.create(&out.series)?;
         let zone = self.options.settings.zone.polars_name();
-        let writer = SeriesWriter::new(file, format, zone.as_deref()).map_err(|e| output_error(&out.series, e))?;
+        let writer = SeriesWriter::new(file, format, zone.as_deref(), self.layout())
+            .map_err(|e| output_error(&out.series, e))?;
         let (tx, rx) = std::sync::mpsc::sync_channel::<Chunk>(1);
         let writing = std::thread::spawn(move || -> (SeriesWriter, polars::prelude::PolarsResult<()>) {
             let mut writer = writer;
@@ -420,21 +458,44 @@ impl<'a> Pipeline<'a> {
     }
 
     /// The hydrograph, its clock the logger's at the start of the record.
-    fn plot(&self, converted: &Converted, fmt: ImageFormat) -> Result<Vec<u8>, crate::report::plot::PlotError> {
-        let offset = self.options.settings.zone.offset_at_utc(converted.buckets.start_ms());
+    fn plot(
+        &self,
+        converted: &Converted,
+        conv: &Conversion,
+        corrections: &Corrections,
+        fmt: ImageFormat,
+    ) -> Result<Vec<u8>, crate::report::plot::PlotError> {
+        let b = &converted.buckets;
+        let offset = self.options.settings.zone.offset_at_utc(b.start_ms());
         let clock = format!(
             "UTC{}{:02}:{:02}",
             if offset < 0 { '-' } else { '+' },
             offset.abs() / 3600,
             (offset.abs() % 3600) / 60
         );
-        hydrograph(
-            &converted.buckets,
-            &format!("{}: discharge", self.station.name),
-            &clock,
-            offset,
-            fmt,
-        )
+        let unit = self.options.flow_unit;
+        let range = self.station.range;
+        let chart = HydroChart {
+            buckets: b,
+            title: format!("{}: discharge", self.station.name),
+            clock,
+            offset_s: offset,
+            flow: (format!("discharge Q ({})", unit.symbol()), 1.0 / unit.m3s_per_unit()),
+            visits: corrections.drift_record.iter().map(|d| d.time_ms).collect(),
+            edits: conv
+                .edits
+                .edits
+                .iter()
+                .map(|e| {
+                    (
+                        e.start_ms,
+                        e.end_ms.min(b.end_ms()).max(e.start_ms + b.width_ms() as i64),
+                    )
+                })
+                .collect(),
+            stage_panel: self.options.plot_stage.then_some((range.min_head_m, range.max_head_m)),
+        };
+        hydrograph(&chart, fmt)
     }
 
     fn paths(&self, logger: &Path, out: &OutputPaths) -> Paths {

@@ -12,7 +12,7 @@ use super::super::time::{resolve_in_place, TimeNote, NO_TIME};
 use super::super::timeline::{Timeline, TimelineError};
 use crate::rating::limits::invalid_head_bands;
 use crate::rating::{RatingEquation, RatingError, RatingModel};
-use crate::report::plot::HydroBuckets;
+use crate::report::hydrograph::{BucketRow, HydroBuckets, RowKind};
 use crate::station::Station;
 use crate::tailwater::{Exit, Tailwater};
 use crate::uncertainty::{GumModel, Inputs};
@@ -340,13 +340,20 @@ pub fn convert_all(
                             &mut c,
                             &mut sm,
                         );
-                        b.add_rows(
-                            &chunk.time_ms,
-                            &chunk.discharge_m3s,
-                            &chunk.low_m3s,
-                            &chunk.high_m3s,
-                            |k| !chunk.flag[k].measured(),
-                        );
+                        b.add_rows(chunk.time_ms.len(), |k| BucketRow {
+                            t_ms: chunk.time_ms[k],
+                            q: chunk.discharge_m3s[k],
+                            lo: chunk.low_m3s[k],
+                            hi: chunk.high_m3s[k],
+                            head: chunk.head_m[k],
+                            kind: if chunk.flag[k].measured() {
+                                RowKind::Measured
+                            } else if chunk.flag[k].estimated() {
+                                RowKind::Estimated
+                            } else {
+                                RowKind::NoDischarge
+                            },
+                        });
                         (chunk, c, sm, b)
                     })
                 })
@@ -472,6 +479,7 @@ mod tests {
             edits: Default::default(),
             screened: Default::default(),
             input_rows: 8,
+            temperature_column: None,
         };
         let dir = tempfile::tempdir().expect("tempdir");
         let visits = dir.path().join("v.csv");
