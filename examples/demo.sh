@@ -11,11 +11,13 @@ bin="${CARGO_TARGET_DIR:-target}/debug/flumerate"
 mkdir -p out
 
 echo "== 1. convert the canal flume's logger export to discharge (barometric compensation, drift"
-echo "      against three field visits, the October clock change, a gap, a spike, a failed reading)"
+echo "      against three field visits, the October clock change, a gap, a spike screened and filled,"
+echo "      a failed reading, and the hydrographer's edits log)"
 "$bin" convert examples/ridgeway-logger.csv --station ratings/ridgeway-canal-flume.toml \
     --baro examples/ridgeway-baro.csv --visits examples/ridgeway-visits.csv \
+    --edits examples/ridgeway-edits.csv \
     -o out/ridgeway-series.csv --daily out/ridgeway-daily.csv --monthly out/ridgeway-monthly.csv \
-    --plot out/ridgeway-hydrograph.png
+    --plot out/ridgeway-hydrograph.png --plot-stage
 echo "   series: out/ridgeway-series.csv   daily: out/ridgeway-daily.csv   plot: out/ridgeway-hydrograph.png"
 
 echo

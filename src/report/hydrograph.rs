@@ -317,21 +317,7 @@ where
                 .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 20, y + 6)], grey.filled()));
         }
     }
-    let edit = RGBColor(150, 60, 170);
     let shift = i64::from(off) * 1000;
-    for (i, &(from, to)) in chart.edits.iter().enumerate() {
-        let (x0, x1) = (HydroBuckets::clock(from + shift), HydroBuckets::clock(to + shift));
-        let s = c
-            .draw_series(std::iter::once(Rectangle::new(
-                [(x0, 0.0), (x1, y1 * 0.03)],
-                edit.filled(),
-            )))
-            .map_err(err)?;
-        if i == 0 {
-            s.label("edit window (bar along the axis; see the provenance)")
-                .legend(move |(x, y)| Rectangle::new([(x, y - 4), (x + 20, y + 4)], edit.filled()));
-        }
-    }
     let visit = RGBColor(0, 130, 60);
     for (i, &t) in chart.visits.iter().enumerate() {
         let x = HydroBuckets::clock(t + shift);
@@ -346,6 +332,20 @@ where
         if i == 0 {
             s.label("field visit")
                 .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], visit.stroke_width(2)));
+        }
+    }
+    let edit = RGBColor(150, 60, 170);
+    for (i, &(from, to)) in chart.edits.iter().enumerate() {
+        let (x0, x1) = (HydroBuckets::clock(from + shift), HydroBuckets::clock(to + shift));
+        let s = c
+            .draw_series(std::iter::once(Rectangle::new(
+                [(x0, 0.0), (x1, y1 * 0.03)],
+                edit.filled(),
+            )))
+            .map_err(err)?;
+        if i == 0 {
+            s.label("edit window (bar along the axis; see the provenance)")
+                .legend(move |(x, y)| Rectangle::new([(x, y - 4), (x + 20, y + 4)], edit.filled()));
         }
     }
     Ok(())
@@ -468,7 +468,7 @@ where
             .map(|i| (b.time(i as f64 + 0.5, off), heads[i].unwrap_or(f64::NAN)))
             .collect();
         let s = c
-            .draw_series(LineSeries::new(line, BLACK.stroke_width(1)))
+            .draw_series(LineSeries::new(line, BLACK.stroke_width(2)))
             .map_err(err)?;
         if std::mem::take(&mut first) {
             s.label("head as logged, corrected (screened readings included)")

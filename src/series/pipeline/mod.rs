@@ -489,7 +489,7 @@ impl<'a> Pipeline<'a> {
                 .map(|e| {
                     (
                         e.start_ms,
-                        e.end_ms.min(b.end_ms()).max(e.start_ms + b.width_ms() as i64),
+                        e.end_ms.min(b.end_ms()).max(e.start_ms + (3.0 * b.width_ms()) as i64),
                     )
                 })
                 .collect(),
