@@ -70,3 +70,19 @@ pub fn short_throat_station(dir: &Path) -> PathBuf {
         ),
     )
 }
+
+/// A CSV file as maps column → text, fields separated by `sep`.
+pub fn read_csv(path: &Path, sep: u8) -> Vec<std::collections::BTreeMap<String, String>> {
+    let mut r = csv::ReaderBuilder::new().delimiter(sep).from_path(path).expect("csv");
+    let headers = r.headers().expect("header").clone();
+    r.records()
+        .map(|rec| {
+            let rec = rec.expect("record");
+            headers
+                .iter()
+                .zip(rec.iter())
+                .map(|(h, v)| (h.to_string(), v.to_string()))
+                .collect()
+        })
+        .collect()
+}

@@ -4,7 +4,7 @@
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
-use crate::common::{flumerate, rel};
+use crate::common::{flumerate, read_csv, rel};
 use flumerate::rating::RatingModel;
 use flumerate::station::Station;
 use predicates::prelude::*;
@@ -17,18 +17,7 @@ fn data(name: &str) -> PathBuf {
 
 /// Output rows as maps column → text.
 fn read_rows(path: &Path) -> Vec<BTreeMap<String, String>> {
-    let mut r = csv::Reader::from_path(path).expect("output csv");
-    let headers = r.headers().expect("header").clone();
-    r.records()
-        .map(|rec| {
-            let rec = rec.expect("record");
-            headers
-                .iter()
-                .zip(rec.iter())
-                .map(|(h, v)| (h.to_string(), v.to_string()))
-                .collect()
-        })
-        .collect()
+    read_csv(path, b',')
 }
 
 fn convert(logger: &str, station: &str, dir: &Path, extra: &[&str]) -> (PathBuf, std::process::Output) {

@@ -7,28 +7,12 @@
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
-use crate::common::flumerate;
+use crate::common::{flumerate, read_csv};
 
 const DIR: &str = "tests/data/screening";
 
 fn data(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join(DIR).join(name)
-}
-
-/// A CSV file as maps column → text (`sep` between fields).
-fn read_csv(path: &Path, sep: u8) -> Vec<BTreeMap<String, String>> {
-    let mut r = csv::ReaderBuilder::new().delimiter(sep).from_path(path).expect("csv");
-    let headers = r.headers().expect("header").clone();
-    r.records()
-        .map(|rec| {
-            let rec = rec.expect("record");
-            headers
-                .iter()
-                .zip(rec.iter())
-                .map(|(h, v)| (h.to_string(), v.to_string()))
-                .collect()
-        })
-        .collect()
 }
 
 fn num(row: &BTreeMap<String, String>, key: &str) -> f64 {
