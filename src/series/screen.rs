@@ -175,54 +175,120 @@ impl Screened {
     }
 }
 
-/// What the screening needs to know of the rows. `order` lists the rows that stand for time
-/// (one per instant) in time order; `level(i)` gives row `i`'s stage and head (m, NaN where it
-/// has none: no reading, an impossible one).
-pub struct Rows<'a, L: Fn(usize) -> (f64, f64)> {
-    /// Rows in time order.
-    pub order: &'a [u32],
-    /// Instants (UTC ms) per row.
+/// What the screening needs to know of the rows, all indexed by row.
+#[derive(Debug, Clone, Copy)]
+pub struct Rows<'a> {
+    /// The rows that stand for time (one per instant) in time order; `None` when the rows in
+    /// file order are in time order (every row with a time stands for its instant).
+    pub order: Option<&'a [u32]>,
+    /// Instants (UTC ms).
     pub utc: &'a [i64],
-    /// The logged value per row (stage or pressure, as logged).
+    /// The logged value (stage or pressure, as logged).
     pub raw: &'a [f64],
-    /// Stage and head per row.
-    pub level: L,
+    /// Head (m): zero, edits and drift applied; NaN where there is none (no time, no reading, an
+    /// impossible one).
+    pub head: &'a [f64],
+    /// [`AIR`] where the stage is at or below the sensor's dry reading, [`NEAR_DRY`] where it is
+    /// within the out-of-water tolerance of it (both bits when at or below).
+    pub air: &'a [u8],
     /// The nominal interval (ms).
     pub interval_ms: i64,
 }
 
-/// The sensor's dry reading (m of stage) and whether the sensor sits below the crest.
+/// [`Rows::air`]: the stage is at or below the sensor's dry reading.
+pub const AIR: u8 = 1;
+/// [`Rows::air`]: the stage is within the out-of-water tolerance of the dry reading.
+pub const NEAR_DRY: u8 = 2;
+
+impl Rows<'_> {
+    /// Positions in time order.
+    fn len(&self) -> usize {
+        self.order.map_or(self.utc.len(), <[u32]>::len)
+    }
+
+    /// The row at position `p`.
+    #[inline]
+    fn row(&self, p: usize) -> usize {
+        self.order.map_or(p, |o| o[p] as usize)
+    }
+
+    /// Whether the row at position `p` can be screened and anchor a fill: kept so far, with a
+    /// head (rows without one carry [`NO_HEAD`] while screening runs).
+    #[inline]
+    fn usable(&self, codes: &[u8], p: usize) -> bool {
+        codes[self.row(p)] == 0
+    }
+
+    /// The first usable position at or after `p`.
+    #[inline]
+    fn next_usable(&self, codes: &[u8], mut p: usize) -> Option<usize> {
+        let n = self.len();
+        while p < n {
+            if self.usable(codes, p) {
+                return Some(p);
+            }
+            p += 1;
+        }
+        None
+    }
+}
+
+/// Whether a sensor sits below the crest (its dry reading below the zero by more than the
+/// tolerance): then a reading at or below its dry reading means it is in air.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Sensor {
     /// The stage the logger reads with its sensor in air (m).
     pub dry_m: f64,
-    /// Whether the sensor sits below the crest (its dry reading below the zero).
+    /// Whether the sensor sits below the crest.
     pub below_crest: bool,
 }
 
+impl Sensor {
+    /// The [`Rows::air`] bits of a stage (m).
+    #[inline]
+    pub fn air_bits(&self, stage_m: f64, spec: &ScreeningSpec) -> u8 {
+        let mut bits = 0;
+        if self.below_crest && stage_m <= self.dry_m {
+            bits |= AIR;
+        }
+        if stage_m <= self.dry_m + spec.out_of_water_tolerance_m {
+            bits |= NEAR_DRY;
+        }
+        bits
+    }
+}
+
+/// A row without a head, while screening runs (the code is cleared before it ends).
+const NO_HEAD: u8 = 255;
+
 /// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
-pub fn screen<L: Fn(usize) -> (f64, f64)>(
-    rows: &Rows<'_, L>,
-    n: usize,
-    edits: &Edits,
-    spec: &ScreeningSpec,
-    sensor: Sensor,
-) -> Screened {
+pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) -> Screened {
     let mut s = Screened {
-        codes: vec![0; n],
+        codes: rows.head[..n]
+            .iter()
+            .map(|h| if h.is_finite() { 0 } else { NO_HEAD })
+            .collect(),
         edit_rows: vec![0; edits.edits.len()],
         ..Default::default()
     };
     apply_edits(rows.utc, edits, &mut s);
     if spec.enabled {
-        out_of_water(rows, spec, sensor, &mut s.codes);
+        out_of_water(rows, spec, &mut s.codes);
         spikes(rows, spec, &mut s.codes);
         flat(rows, spec, &mut s.codes);
     }
-    for &i in rows.order {
-        s.screened[usize::from(s.codes[i as usize])] += 1;
-    }
     fill_gaps(rows, edits, spec, &mut s);
+    for c in &mut s.codes {
+        if *c == NO_HEAD {
+            *c = 0;
+        }
+    }
+    for p in 0..rows.len() {
+        let i = rows.row(p);
+        if rows.utc[i] != NO_TIME {
+            s.screened[usize::from(s.codes[i])] += 1;
+        }
+    }
     s
 }
 
@@ -248,173 +314,142 @@ fn apply_edits(utc: &[i64], edits: &Edits, s: &mut Screened) {
     }
 }
 
-/// A row whose head can be screened: kept so far, with a head.
-fn usable<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, codes: &[u8], i: usize) -> bool {
-    codes[i] == 0 && (rows.level)(i).1.is_finite()
-}
-
-fn out_of_water<L: Fn(usize) -> (f64, f64)>(
-    rows: &Rows<'_, L>,
-    spec: &ScreeningSpec,
-    sensor: Sensor,
-    codes: &mut [u8],
-) {
-    let near = sensor.dry_m + spec.out_of_water_tolerance_m;
-    let mut before: Option<(f64, f64)> = None; // stage, head of the last usable reading
+/// In air (sensor below the crest, stage at or below its dry reading), or a drop from flowing
+/// water to near the dry reading and every reading after it while it stays near.
+fn out_of_water(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
+    let mut flowing_before = false;
     let mut in_episode = false;
-    for &r in rows.order {
-        let i = r as usize;
-        if !usable(rows, codes, i) {
+    for p in 0..rows.len() {
+        if !rows.usable(codes, p) {
             continue;
         }
-        let (stage, head) = (rows.level)(i);
-        let in_air = sensor.below_crest && stage <= sensor.dry_m;
-        let dropped = stage <= near
-            && (in_episode
-                || before.is_some_and(|(s0, h0)| {
-                    h0 > spec.out_of_water_tolerance_m && s0 - stage > spec.out_of_water_tolerance_m
-                }));
-        if in_air || dropped {
+        let i = rows.row(p);
+        let air = rows.air[i];
+        let dropped = air & NEAR_DRY != 0 && (in_episode || flowing_before);
+        if air & AIR != 0 || dropped {
             codes[i] = Screen::OutOfWater as u8;
-            in_episode = dropped || in_episode;
+            in_episode |= dropped;
         } else {
             in_episode = false;
-            before = Some((stage, head));
+            flowing_before = rows.head[i] > spec.out_of_water_tolerance_m;
         }
     }
 }
 
-/// Positions (into `order`) of the usable rows.
-fn usable_positions<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, codes: &[u8]) -> Vec<usize> {
-    (0..rows.order.len())
-        .filter(|&p| usable(rows, codes, rows.order[p] as usize))
-        .collect()
-}
-
-fn spikes<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, spec: &ScreeningSpec, codes: &mut [u8]) {
-    let pos = usable_positions(rows, codes);
-    let row = |k: usize| rows.order[pos[k]] as usize;
-    let head = |k: usize| (rows.level)(row(k)).1;
-    let time = |k: usize| rows.utc[row(k)];
+/// A jump of more than the rise from the reading before that comes back within half of it
+/// within `spike_return` readings.
+fn spikes(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
     let rise = spec.spike_rise_m;
-    let mut k = 1;
-    while k < pos.len() {
-        let before = head(k - 1);
-        let consecutive = time(k) - time(k - 1) <= 2 * rows.interval_ms;
-        if !(consecutive && (head(k) - before).abs() > rise) {
-            k += 1;
+    let Some(mut before) = rows.next_usable(codes, 0) else {
+        return;
+    };
+    let mut k = rows.next_usable(codes, before + 1);
+    let mut ahead: Vec<usize> = Vec::with_capacity(spec.spike_return + 1);
+    while let Some(pk) = k {
+        let (ib, ik) = (rows.row(before), rows.row(pk));
+        let h0 = rows.head[ib];
+        let consecutive = rows.utc[ik] - rows.utc[ib] <= 2 * rows.interval_ms;
+        if !(consecutive && (rows.head[ik] - h0).abs() > rise) {
+            before = pk;
+            k = rows.next_usable(codes, pk + 1);
             continue;
         }
-        // the spike ends at j when the reading after j is back within half the rise
-        let end = (k..(k + spec.spike_return).min(pos.len() - 1)).find(|&j| (head(j + 1) - before).abs() <= rise / 2.0);
-        match end {
-            Some(j) => {
-                for m in k..=j {
-                    codes[row(m)] = Screen::Spike as u8;
-                }
-                k = j + 2;
+        // the usable readings after the jump, up to spike_return of them and one more
+        ahead.clear();
+        ahead.push(pk);
+        while ahead.len() <= spec.spike_return {
+            match rows.next_usable(codes, ahead[ahead.len() - 1] + 1) {
+                Some(q) => ahead.push(q),
+                None => break,
             }
-            None => k += 1,
+        }
+        let back = (1..ahead.len()).find(|&m| (rows.head[rows.row(ahead[m])] - h0).abs() <= rise / 2.0);
+        match back {
+            Some(m) => {
+                for &q in &ahead[..m] {
+                    codes[rows.row(q)] = Screen::Spike as u8;
+                }
+                // the reading back is the next one before
+                before = ahead[m];
+                k = rows.next_usable(codes, before + 1);
+            }
+            None => {
+                before = pk;
+                k = rows.next_usable(codes, pk + 1);
+            }
         }
     }
 }
 
-fn flat<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, spec: &ScreeningSpec, codes: &mut [u8]) {
-    let pos = usable_positions(rows, codes);
-    let row = |k: usize| rows.order[pos[k]] as usize;
+/// The same logged value for `flat_hours` or longer while flowing.
+fn flat(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
     let min_ms = (spec.flat_hours * 3_600_000.0) as i64;
-    let mut start = 0;
-    while start < pos.len() {
-        let bits = rows.raw[row(start)].to_bits();
-        let mut end = start;
-        while end + 1 < pos.len() && rows.raw[row(end + 1)].to_bits() == bits {
-            end += 1;
+    let mut p = rows.next_usable(codes, 0);
+    while let Some(start) = p {
+        let i0 = rows.row(start);
+        let bits = rows.raw[i0].to_bits();
+        let (mut end, mut count) = (start, 1usize);
+        let mut next = rows.next_usable(codes, start + 1);
+        while let Some(q) = next {
+            if rows.raw[rows.row(q)].to_bits() != bits {
+                break;
+            }
+            end = q;
+            count += 1;
+            next = rows.next_usable(codes, q + 1);
         }
-        let flowing = (rows.level)(row(start)).1 > 0.0;
-        if flowing && end > start && rows.utc[row(end)] - rows.utc[row(start)] >= min_ms {
-            for m in start..=end {
-                codes[row(m)] = Screen::Flat as u8;
+        let long = rows.utc[rows.row(end)] - rows.utc[i0] >= min_ms;
+        if count > 1 && rows.head[i0] > 0.0 && long {
+            for q in start..=end {
+                let i = rows.row(q);
+                if codes[i] == 0 && rows.raw[i].to_bits() == bits {
+                    codes[i] = Screen::Flat as u8;
+                }
             }
         }
-        start = end + 1;
+        p = next;
     }
 }
 
 /// Fills gaps between usable readings (and the windows of `fill` edits).
-fn fill_gaps<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened) {
+fn fill_gaps(rows: &Rows<'_>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened) {
     let max_ms = (spec.fill_max_hours * 3_600_000.0).round() as i64;
-    let anchors = usable_positions(rows, &s.codes);
-    let mut failed: Vec<usize> = Vec::new();
-    // rows before the first anchor and after the last cannot be filled
-    let ends = [
-        (0, anchors.first().copied().unwrap_or(rows.order.len())),
-        (anchors.last().map_or(rows.order.len(), |&p| p + 1), rows.order.len()),
-    ];
-    for (from, to) in ends {
-        for &r in &rows.order[from..to] {
-            if s.codes[r as usize] == Screen::FillEdit as u8 {
-                failed.push(r as usize);
-            }
-        }
-    }
-    for w in anchors.windows(2) {
-        let (pa, pb) = (w[0], w[1]);
-        let (a, b) = (rows.order[pa] as usize, rows.order[pb] as usize);
-        let (ta, tb) = (rows.utc[a], rows.utc[b]);
-        let between = &rows.order[pa + 1..pb];
-        let no_rows_gap = tb - ta > rows.interval_ms + rows.interval_ms / 10;
-        if between.is_empty() && !no_rows_gap {
-            continue;
-        }
-        let by_rule = tb - ta <= max_ms;
-        let edit_line = |t: i64| {
-            edits
-                .edits
-                .iter()
-                .find(|e| e.action == EditAction::Fill && e.covers(t))
-                .map(|e| e.line)
-        };
-        let wanted: Vec<u32> = between
+    let edit_line = |t: i64| {
+        edits
+            .edits
             .iter()
-            .copied()
-            .filter(|&r| by_rule || s.codes[r as usize] == Screen::FillEdit as u8)
-            .collect();
-        let (ha, hb) = ((rows.level)(a).1, (rows.level)(b).1);
-        let fill_at = |t: i64| Fill {
-            head_m: ha + (hb - ha) * ((t - ta) as f64 / (tb - ta) as f64),
-            u_m: ((hb - ha).abs() / 2.0).max(MIN_FILL_HALF_WIDTH_M) / 3f64.sqrt(),
-        };
-        for &r in &wanted {
-            let i = r as usize;
-            s.filled_from[usize::from(s.codes[i])] += 1;
-            s.fills.insert(r, fill_at(rows.utc[i]));
-        }
-        let first_inserted = s.inserted.len();
-        insert_rows(rows, a, between, b, by_rule, &edit_line, &fill_at, &mut s.inserted);
-        let inserted = s.inserted.len() - first_inserted;
-        if !by_rule {
-            // longer than the limit: missing, except what fill edits asked for
-            s.unfilled.0 += 1;
-            s.unfilled.1 += (tb - ta) as f64 / 3_600_000.0;
-        }
-        if wanted.is_empty() && inserted == 0 {
+            .find(|e| e.action == EditAction::Fill && e.covers(t))
+            .map(|e| e.line)
+    };
+    let mut failed: Vec<usize> = Vec::new();
+    let mut anchor: Option<usize> = None;
+    // rows after the anchor without a usable head
+    let mut between: Vec<u32> = Vec::new();
+    for p in 0..rows.len() {
+        let i = rows.row(p);
+        if rows.utc[i] == NO_TIME {
             continue;
         }
-        let first_time = wanted
-            .first()
-            .map(|&r| rows.utc[r as usize])
-            .or_else(|| s.inserted.get(first_inserted).map(|r| r.time_ms));
-        s.gaps_total += 1;
-        if s.gaps.len() < MAX_LISTED_GAPS {
-            s.gaps.push(FilledGap {
-                from_ms: ta,
-                to_ms: tb,
-                rows: wanted.len(),
-                inserted,
-                edit_line: if by_rule { None } else { first_time.and_then(edit_line) },
-            });
+        if !rows.usable(&s.codes, p) {
+            let fill_edit = s.codes[i] == Screen::FillEdit as u8;
+            match anchor {
+                None if fill_edit => failed.push(i),
+                None => {}
+                Some(_) => between.push(i as u32),
+            }
+            continue;
         }
+        if let Some(a) = anchor {
+            fill_one_gap(rows, edits, a, std::mem::take(&mut between), i, max_ms, &edit_line, s);
+        }
+        anchor = Some(i);
     }
+    failed.extend(
+        between
+            .iter()
+            .map(|&r| r as usize)
+            .filter(|&i| s.codes[i] == Screen::FillEdit as u8),
+    );
     s.fill_edits_failed = failed
         .into_iter()
         .filter_map(|i| {
@@ -428,13 +463,84 @@ fn fill_gaps<L: Fn(usize) -> (f64, f64)>(rows: &Rows<'_, L>, edits: &Edits, spec
     s.fill_edits_failed.dedup();
 }
 
+/// One gap between usable rows `a` and `b` with the rows `between` them that may be filled.
+#[allow(clippy::too_many_arguments)]
+fn fill_one_gap(
+    rows: &Rows<'_>,
+    edits: &Edits,
+    a: usize,
+    between: Vec<u32>,
+    b: usize,
+    max_ms: i64,
+    edit_line: &dyn Fn(i64) -> Option<usize>,
+    s: &mut Screened,
+) {
+    let (ta, tb) = (rows.utc[a], rows.utc[b]);
+    let no_rows_gap = tb - ta > rows.interval_ms + rows.interval_ms / 10;
+    if between.is_empty() && !no_rows_gap {
+        return;
+    }
+    let by_rule = tb - ta <= max_ms;
+    let wanted: Vec<u32> = between
+        .iter()
+        .copied()
+        .filter(|&r| by_rule || s.codes[r as usize] == Screen::FillEdit as u8)
+        .collect();
+    let (ha, hb) = (rows.head[a], rows.head[b]);
+    let fill_at = |t: i64| Fill {
+        head_m: ha + (hb - ha) * ((t - ta) as f64 / (tb - ta) as f64),
+        u_m: ((hb - ha).abs() / 2.0).max(MIN_FILL_HALF_WIDTH_M) / 3f64.sqrt(),
+    };
+    for &r in &wanted {
+        let i = r as usize;
+        let code = if s.codes[i] == NO_HEAD { 0 } else { s.codes[i] };
+        s.filled_from[usize::from(code)] += 1;
+        s.fills.insert(r, fill_at(rows.utc[i]));
+    }
+    let first_inserted = s.inserted.len();
+    if by_rule || fill_edit_within(edits, ta, tb) {
+        insert_rows(rows, a, &between, b, by_rule, edit_line, &fill_at, &mut s.inserted);
+    }
+    let inserted = s.inserted.len() - first_inserted;
+    if !by_rule {
+        // longer than the limit: missing, except what fill edits asked for
+        s.unfilled.0 += 1;
+        s.unfilled.1 += (tb - ta) as f64 / 3_600_000.0;
+    }
+    if wanted.is_empty() && inserted == 0 {
+        return;
+    }
+    let first_time = wanted
+        .first()
+        .map(|&r| rows.utc[r as usize])
+        .or_else(|| s.inserted.get(first_inserted).map(|r| r.time_ms));
+    s.gaps_total += 1;
+    if s.gaps.len() < MAX_LISTED_GAPS {
+        s.gaps.push(FilledGap {
+            from_ms: ta,
+            to_ms: tb,
+            rows: wanted.len(),
+            inserted,
+            edit_line: if by_rule { None } else { first_time.and_then(edit_line) },
+        });
+    }
+}
+
+/// Whether a fill edit's window overlaps `(ta, tb)`.
+fn fill_edit_within(edits: &Edits, ta: i64, tb: i64) -> bool {
+    edits
+        .edits
+        .iter()
+        .any(|e| e.action == EditAction::Fill && e.start_ms < tb && e.end_ms > ta)
+}
+
 /// Rows inserted where the logger wrote none between `a` and `b` (with `between` the rows it did
 /// write): at the nominal interval after each instant while the next instant is more than 1.1
 /// intervals away, so an inserted row starts where the row before it stops standing for time.
 /// Only where the gap rule fills (`by_rule`) or a `fill` edit covers the time.
 #[allow(clippy::too_many_arguments)]
-fn insert_rows<L: Fn(usize) -> (f64, f64)>(
-    rows: &Rows<'_, L>,
+fn insert_rows(
+    rows: &Rows<'_>,
     a: usize,
     between: &[u32],
     b: usize,
@@ -487,19 +593,20 @@ mod tests {
 
     fn run_at(utc: &[i64], heads: &[f64], spec: &ScreeningSpec, edits: &Edits) -> Screened {
         let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
-        let order: Vec<u32> = (0..heads.len() as u32).collect();
-        let rows = Rows {
-            order: &order,
-            utc,
-            raw: &raw,
-            level: |i: usize| (heads[i] + 0.1, heads[i]),
-            interval_ms: 15 * MIN,
-        };
         let sensor = Sensor {
             dry_m: 0.0,
             below_crest: true,
         };
-        screen(&rows, heads.len(), edits, spec, sensor)
+        let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, spec)).collect();
+        let rows = Rows {
+            order: None,
+            utc,
+            raw: &raw,
+            head: heads,
+            air: &air,
+            interval_ms: 15 * MIN,
+        };
+        screen(&rows, heads.len(), edits, spec)
     }
 
     fn codes(s: &Screened, n: usize) -> Vec<Screen> {
@@ -518,6 +625,19 @@ mod tests {
         let f = s.fill(2).expect("filled");
         assert!((f.head_m - 0.21).abs() < 1e-12);
         assert!((f.u_m - MIN_FILL_HALF_WIDTH_M / 3f64.sqrt()).abs() < 1e-15);
+    }
+
+    #[test]
+    fn a_spike_on_top_of_a_real_rise_is_found() {
+        let spec = ScreeningSpec {
+            fill_max_hours: 0.0,
+            ..ScreeningSpec::default()
+        };
+        // a real rise 0.2 → 0.4 m that stays, then one reading at 0.9 m that comes back
+        let h = [0.2, 0.2, 0.4, 0.9, 0.4, 0.41, 0.4];
+        let c = codes(&run(&h, &spec, &Edits::default()), h.len());
+        assert_eq!(c[3], Screen::Spike, "{c:?}");
+        assert!(c.iter().enumerate().all(|(i, c)| i == 3 || *c == Screen::Kept), "{c:?}");
     }
 
     #[test]

@@ -207,12 +207,12 @@ impl Timeline {
         }
     }
 
-    /// The rows that stand for time, one per instant, in time order (`utc` as given to
-    /// [`Timeline::new`]).
-    pub fn time_order(&self, utc: &[i64]) -> Vec<u32> {
+    /// The rows that stand for time, one per instant, in time order; `None` when the rows with
+    /// a time are in time order in the file (every one of them stands for its instant).
+    pub fn sorted_order(&self) -> Option<&[u32]> {
         match &self.order {
-            Order::Rising => (0..self.rows as u32).filter(|&i| utc[i as usize] != NO_TIME).collect(),
-            Order::Sorted { time_order, .. } => time_order.clone(),
+            Order::Rising => None,
+            Order::Sorted { time_order, .. } => Some(time_order),
         }
     }
 

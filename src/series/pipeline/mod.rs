@@ -354,8 +354,9 @@ impl<'a> Pipeline<'a> {
         let rating = stages::rating(self.station, &self.model)?;
         timer.mark("rating");
         let (mut conv, corrections) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
+        timer.mark("corrections");
         self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
-        timer.mark("corrections, screening");
+        timer.mark("screening, edits, fills");
         let mut outputs = OutputSet::new();
         let mut converted = self.write_series(&conv, &times, &raw, &rating, out, formats.0, &mut outputs, progress)?;
         timer.mark("convert and write");

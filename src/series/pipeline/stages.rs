@@ -255,20 +255,38 @@ pub fn sensor(settings: &LoggerSettings, spec: &ScreeningSpec) -> Sensor {
 }
 
 /// Stage 4c: screening, edits and gap filling over the rows that stand for time, in time
-/// order ([`super::super::screen`]).
+/// order ([`super::super::screen`]). Every row's head is computed once, on all cores.
 pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningSpec, sensor: Sensor) -> Screened {
-    let order = conv.timeline.time_order(utc);
+    let n = raw.lines.len();
+    let mut head = vec![f64::NAN; n];
+    let mut air = vec![0u8; n];
+    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    let per = n.div_ceil(threads).max(1);
+    std::thread::scope(|scope| {
+        for (k, (h, a)) in head.chunks_mut(per).zip(air.chunks_mut(per)).enumerate() {
+            scope.spawn(move || {
+                for (j, (h, a)) in h.iter_mut().zip(a.iter_mut()).enumerate() {
+                    let i = k * per + j;
+                    if utc[i] == NO_TIME {
+                        continue;
+                    }
+                    let lv = conv.level(i, utc[i], &raw.values);
+                    *h = lv.head_m;
+                    *a = sensor.air_bits(lv.stage_m, spec);
+                }
+            });
+        }
+    });
+    let order = conv.timeline.sorted_order();
     let rows = Rows {
-        order: &order,
+        order,
         utc,
         raw: &raw.values[0],
-        level: |i: usize| {
-            let lv = conv.level(i, utc[i], &raw.values);
-            (lv.stage_m, lv.head_m)
-        },
+        head: &head,
+        air: &air,
         interval_ms: conv.timeline.interval_ms,
     };
-    super::super::screen::screen(&rows, raw.lines.len(), &conv.edits, spec, sensor)
+    super::super::screen::screen(&rows, n, &conv.edits, spec)
 }
 
 /// Adds the rows inserted into filled gaps to the arrays: their instants and local days, no
