@@ -65,6 +65,7 @@
 #![warn(missing_docs)]
 
 pub mod files;
+pub mod gaugings;
 pub mod hydraulics;
 pub mod interp;
 pub mod rating;

@@ -3,6 +3,7 @@
 
 mod check;
 mod convert;
+mod gaugings;
 mod output;
 mod rate;
 mod section;
@@ -42,6 +43,8 @@ enum Command {
     Convert(Box<convert::ConvertArgs>),
     /// Printable one-page field sheet of the rating (HTML)
     Sheet(sheet::SheetArgs),
+    /// Check the rating against field gaugings; fit the coefficient factor and the gauge zero
+    Gaugings(gaugings::GaugingsArgs),
     /// Run the built-in checks against published reference values
     Verify(verify::VerifyArgs),
 }
@@ -126,6 +129,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Tailwater(a) => tailwater::run(a),
         Command::Convert(a) => convert::run(*a),
         Command::Sheet(a) => sheet::run(a),
+        Command::Gaugings(a) => gaugings::run(a),
         Command::Verify(a) => verify::run(a),
     }
 }

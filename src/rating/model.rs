@@ -79,6 +79,8 @@ pub struct Structure {
     pub kind: StructureKind,
     /// Gravitational acceleration (m/s²).
     pub gravity_m_s2: f64,
+    /// A calibration against field gaugings, applied to every discharge (none by default).
+    pub calibration: Option<super::calibration::Calibration>,
 }
 
 impl Structure {
@@ -103,6 +105,7 @@ impl Structure {
             loss,
             kind: StructureKind::Flume,
             gravity_m_s2: crate::hydraulics::STANDARD_GRAVITY_M_S2,
+            calibration: None,
         }
     }
 }
@@ -262,6 +265,13 @@ impl RatingModel {
         &self.structure
     }
 
+    /// The same model without its calibration: the rating from the dimensions alone.
+    pub fn uncalibrated(&self) -> Self {
+        let mut m = self.clone();
+        m.structure.calibration = None;
+        m
+    }
+
     /// The ideal (loss-free) critical-flow discharge of the control at energy head `energy_head_m`.
     pub fn ideal_discharge_m3s(&self, energy_head_m: f64) -> f64 {
         critical_at_energy(&self.structure.control, energy_head_m, 1.0, self.structure.gravity_m_s2).discharge_m3s
@@ -296,6 +306,23 @@ impl RatingModel {
         Ok(self.point(head_m)?.discharge_m3s)
     }
 
+    /// The rating point at gauged head `head_m` (m above the crest): with a calibration
+    /// ([`Structure::calibration`]), the point of the dimensions' rating at h + dz with its
+    /// discharge (and Cd) times f.
+    pub fn point(&self, head_m: f64) -> Result<RatingPoint, RatingError> {
+        let Some(c) = &self.structure.calibration else {
+            return self.point_from_dimensions(head_m);
+        };
+        if !head_m.is_finite() {
+            return Err(RatingError::HeadNotPositive { head_m });
+        }
+        let mut p = self.point_from_dimensions(head_m + c.zero_offset_m)?;
+        p.head_m = head_m;
+        p.discharge_m3s *= c.factor;
+        p.cd *= c.factor;
+        Ok(p)
+    }
+
     /// Solves the energy balance at gauged head `head_m` (m above the crest).
     ///
     /// With c = α/(2g·A1²), the residual r(H) = H − h1 − c·Q(H)² has r(h1) < 0 and, because
@@ -303,7 +330,7 @@ impl RatingModel {
     /// r'(H) = 1 − α·A_c²/A1² falls as H rises: r is concave. Newton's method started at h1 then
     /// climbs monotonically to the smaller root, which is the physical one (A_c < A1/√α, approach
     /// subcritical). A bisection safeguard keeps every step inside the known bracket.
-    pub fn point(&self, head_m: f64) -> Result<RatingPoint, RatingError> {
+    fn point_from_dimensions(&self, head_m: f64) -> Result<RatingPoint, RatingError> {
         if !(head_m.is_finite() && head_m > 0.0) {
             return Err(RatingError::HeadNotPositive { head_m });
         }

@@ -1,6 +1,7 @@
 //! Writers: each turns a computed result into bytes; the caller picks the destination.
 
 pub mod check;
+pub mod gaugings;
 pub mod hydrograph;
 pub mod plot;
 pub mod rating;

@@ -4,6 +4,7 @@
 //! tests need no files. Every error names the file, the line and column, the key, the rule broken
 //! and the fix. The keys are listed in the README's station-file reference and in design.md.
 
+mod calibration;
 mod control;
 mod logger;
 mod raw;
@@ -424,6 +425,11 @@ impl Ctx<'_> {
             loss: control.loss,
             kind: control.kind,
             gravity_m_s2: gravity,
+            calibration: raw
+                .calibration
+                .as_ref()
+                .map(|c| self.calibration(c, unit))
+                .transpose()?,
         };
         let range = match given_range {
             Some(r) => r,

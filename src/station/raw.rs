@@ -36,6 +36,23 @@ pub struct RawStation {
     pub uncertainty: Option<Spanned<RawUncertainty>>,
     pub logger: Option<Spanned<RawLogger>>,
     pub screening: Option<Spanned<RawScreening>>,
+    pub calibration: Option<Spanned<RawCalibration>>,
+}
+
+/// `[calibration]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawCalibration {
+    pub factor: Option<Num>,
+    pub factor_u95_pct: Option<Num>,
+    pub zero_offset: Option<Num>,
+    pub zero_offset_u95: Option<Num>,
+    pub gaugings: Option<Spanned<i64>>,
+    pub from: Option<Text>,
+    pub to: Option<Text>,
+    pub source_sha256: Option<Text>,
+    pub mean_deviation_pct: Option<Num>,
+    pub mean_deviation_u95_pct: Option<Num>,
 }
 
 /// `[screening]`

@@ -125,17 +125,32 @@ impl Inputs {
             Some(v) => (v, given()),
             None => (default, source.to_string()),
         };
-        let (c, cs) = pick(spec.coefficient_pct, cd_default, cd_source);
+        let (mut c, mut cs) = pick(spec.coefficient_pct, cd_default, cd_source);
         let (d, ds) = pick(
             spec.dimension_pct,
             0.2,
             "default: upper end of the typical ±0.1–0.2 % (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
         );
-        let (z, zs) = pick(
+        let (mut z, mut zs) = pick(
             spec.zero_mm,
             2.0,
             "default: middle of the typical ±1–3 mm (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
         );
+        // a calibration against gaugings replaces the coefficient's and the zero's uncertainty
+        // by what the gaugings gave (normal, k = 2)
+        let calibrated = structure.calibration.as_ref();
+        if let Some(cal) = calibrated {
+            c = cal.factor_u95_pct;
+            cs = format!(
+                "calibration against {} gauging(s) ({} to {}): the factor's uncertainty",
+                cal.gaugings, cal.from, cal.to
+            );
+            z = cal.zero_offset_u95_m * 1000.0;
+            zs = format!(
+                "calibration against {} gauging(s) ({} to {}): the zero correction's uncertainty",
+                cal.gaugings, cal.from, cal.to
+            );
+        }
         let (h, hs) = pick(
             spec.head_mm,
             2.0,
@@ -149,8 +164,8 @@ impl Inputs {
                 c,
                 "%",
                 0.01,
-                dist(spec.coefficient_pct.is_some(), dc),
-                kk(spec.coefficient_pct.is_some()),
+                dist(spec.coefficient_pct.is_some() && calibrated.is_none(), dc),
+                kk(spec.coefficient_pct.is_some() && calibrated.is_none()),
                 cs,
             ),
             dimension: Input::new(
@@ -165,8 +180,8 @@ impl Inputs {
                 z,
                 "mm",
                 0.001,
-                dist(spec.zero_mm.is_some(), dz),
-                kk(spec.zero_mm.is_some()),
+                dist(spec.zero_mm.is_some() && calibrated.is_none(), dz),
+                kk(spec.zero_mm.is_some() && calibrated.is_none()),
                 zs,
             ),
             reading: Input::new(

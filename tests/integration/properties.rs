@@ -40,6 +40,7 @@ fn model(control: Section, boundary_layer: bool) -> RatingModel {
         },
         kind: StructureKind::Flume,
         gravity_m_s2: G,
+        calibration: None,
     })
     .expect("model")
 }
