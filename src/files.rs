@@ -239,14 +239,21 @@ impl OutputSet {
             .parent()
             .filter(|d| !d.as_os_str().is_empty())
             .unwrap_or(Path::new("."));
-        let named = tempfile::Builder::new()
-            .prefix(&format!(".{name}."))
-            .suffix(".tmp")
-            .tempfile_in(dir)
-            .map_err(io(
-                "creating a temporary file (does the folder exist and is it writable?) for",
-                path,
-            ))?;
+        let prefix = format!(".{name}.");
+        let mut builder = tempfile::Builder::new();
+        builder.prefix(&prefix).suffix(".tmp");
+        // the output gets the permissions a plain file would (0666 less the umask), or keeps
+        // those of the file it replaces; a temporary's own 0600 would hide it from the group
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            let mode = std::fs::metadata(path).map_or(0o666, |m| m.permissions().mode() & 0o7777);
+            builder.permissions(std::fs::Permissions::from_mode(mode));
+        }
+        let named = builder.tempfile_in(dir).map_err(io(
+            "creating a temporary file (does the folder exist and is it writable?) for",
+            path,
+        ))?;
         let (file, temp) = named.into_parts();
         register(&temp);
         self.staged.push(Staged {
@@ -362,6 +369,23 @@ impl Drop for OutputSet {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A replaced output keeps the permissions it had (a temporary is created 0600).
+    #[test]
+    #[cfg(unix)]
+    fn a_replaced_output_keeps_its_permissions() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = dir.path().join("out.csv");
+        std::fs::write(&p, "old").expect("write");
+        std::fs::set_permissions(&p, std::fs::Permissions::from_mode(0o640)).expect("chmod");
+        let mut set = OutputSet::new();
+        set.write(&p, b"new").expect("stage");
+        set.commit().expect("commit");
+        assert_eq!(std::fs::read_to_string(&p).expect("read"), "new");
+        let mode = std::fs::metadata(&p).expect("meta").permissions().mode() & 0o777;
+        assert_eq!(mode, 0o640, "not the temporary's 0600");
+    }
 
     /// When a rename fails half-way, the outputs renamed before it get their previous contents
     /// back and a new output that had no previous file is removed.

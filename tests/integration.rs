@@ -7,6 +7,7 @@ mod integration {
     pub mod convert;
     pub mod field_trial;
     pub mod fuzz;
+    pub mod gaugings;
     pub mod hostile;
     pub mod malformed;
     pub mod order;

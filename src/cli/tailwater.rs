@@ -54,7 +54,12 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
     let result = check(&model, &exit, &tailwater, &heads)
         .with_context(|| format!("{}: tailwater check", a.station.display()))?;
     let method = exit_method(&station.exit, &exit);
+    let calibration = station.structure.calibration.as_ref().map(|c| {
+        let (lu, _) = units.symbols();
+        c.sentence(lu, units.length_from_si(1.0))
+    });
     let report = TailwaterReport {
+        calibration: calibration.as_deref(),
         name: &station.name,
         source: &station.source,
         method: &method,

@@ -31,8 +31,12 @@ impl Calibration {
     /// One sentence for reports: what is applied and what it rests on, `dz` in `length` units of
     /// `per_m` per metre.
     pub fn sentence(&self, length: &str, per_m: f64) -> String {
+        let check = match (self.mean_deviation_pct, self.mean_deviation_u95_pct) {
+            (Some(d), Some(u)) => format!("; their mean deviation from the uncalibrated rating: {d:+.2} % ± {u:.2} %"),
+            _ => String::new(),
+        };
         format!(
-            "calibrated against {} field gauging(s) from {} to {}: Q = {:.4} · Q_rating(h {} {:.4} {length}) (factor ±{:.2} %, zero ±{:.4} {length}, k = 2)",
+            "calibrated against {} field gauging(s) from {} to {}: Q = {:.4} · Q_rating(h {} {:.4} {length}) (factor ±{:.2} %, zero ±{:.4} {length}, k = 2){check}",
             self.gaugings,
             self.from,
             self.to,

@@ -35,6 +35,8 @@ pub struct TailwaterReport<'a> {
     pub source: &'a str,
     /// How the modular limit was obtained, for the header.
     pub method: &'a str,
+    /// The rating's calibration against gaugings, in words, when it has one.
+    pub calibration: Option<&'a str>,
     /// The check.
     pub check: &'a TailwaterCheck,
     /// Output units.
@@ -243,6 +245,7 @@ impl TailwaterReport<'_> {
             "station_file": self.source,
             "units": match self.units { Units::Si => "si", Units::Us => "us" },
             "modular_limit_method": self.method,
+            "calibration": self.calibration,
             "drowned_bands": self.bands_json(),
             "rows": rows,
             "verdict": verdict,
@@ -258,8 +261,11 @@ impl TailwaterReport<'_> {
         let u = self.units;
         let (lu, qu) = u.symbols();
         let mut s = format!(
-            "flumerate tailwater check: {}\nstation file: {}\nmodular limit: {}\nlevels in {lu} above the crest (negative: below it), discharge in {qu}; submergence = H2/H1 (energy heads); ML = modular limit\n\n",
-            self.name, self.source, self.method
+            "flumerate tailwater check: {}\nstation file: {}\nmodular limit: {}\n{}levels in {lu} above the crest (negative: below it), discharge in {qu}; submergence = H2/H1 (energy heads); ML = modular limit\n\n",
+            self.name,
+            self.source,
+            self.method,
+            self.calibration.map_or(String::new(), |c| format!("rating: {c}\n"))
         );
         s.push_str(&format!(
             "{:>12} {:>8} {:>10} {:>7} {:>7} {:>12} {:>8}  note\n",

@@ -51,7 +51,7 @@ fn cells(html: &str) -> Vec<(f64, f64, String)> {
         .collect()
 }
 
-fn chromium() -> Option<PathBuf> {
+pub(crate) fn chromium() -> Option<PathBuf> {
     ["chromium", "chromium-browser"].iter().find_map(|name| {
         std::env::var_os("PATH").and_then(|paths| {
             std::env::split_paths(&paths)
@@ -62,7 +62,7 @@ fn chromium() -> Option<PathBuf> {
 }
 
 /// Prints `html` to PDF with headless Chromium; returns the PDF's path.
-fn print_pdf(chrome: &Path, html: &Path, dir: &Path) -> PathBuf {
+pub(crate) fn print_pdf(chrome: &Path, html: &Path, dir: &Path) -> PathBuf {
     let pdf = dir.join(format!("{}.pdf", html.file_stem().expect("stem").to_string_lossy()));
     let profile = tempfile::tempdir().expect("profile dir");
     let status = std::process::Command::new(chrome)

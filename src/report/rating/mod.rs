@@ -254,7 +254,7 @@ impl<'a> RatingReport<'a> {
             StructureKind::Flume => "long-throated flume",
             StructureKind::Weir => "broad-crested weir",
         };
-        vec![
+        let mut lines = vec![
             format!(
                 "structure: {kind}; control {}; length {} {lu}",
                 s.control.describe(lu, per),
@@ -267,7 +267,11 @@ impl<'a> RatingReport<'a> {
                 s.approach_alpha
             ),
             format!("method: {}", self.method_line()),
-        ]
+        ];
+        if let Some(c) = &s.calibration {
+            lines.push(format!("calibration: {}", c.sentence(lu, per)));
+        }
+        lines
     }
 
     /// CSV with a header row; numbers at full precision, missing values empty.
@@ -384,6 +388,17 @@ impl<'a> RatingReport<'a> {
             "station_file": self.source,
             "units": match self.units { Units::Si => "si", Units::Us => "us" },
             "method": self.method_line(),
+            "calibration": self.model.structure().calibration.as_ref().map(|c| json!({
+                "factor": c.factor,
+                "factor_u95_pct": c.factor_u95_pct,
+                "zero_offset_m": c.zero_offset_m,
+                "zero_offset_u95_m": c.zero_offset_u95_m,
+                "gaugings": c.gaugings,
+                "from": c.from,
+                "to": c.to,
+                "source_sha256": c.source_sha256,
+                "applied": "Q = factor · Q_rating(h + zero_offset_m)",
+            })),
             "rows": rows,
             "equation": self.equation_json(),
             "uncertainty": self.uncertainty_json(),

@@ -202,6 +202,7 @@ impl Facts<'_> {
         let r = self.rating;
         let si = crate::units::Units::Si;
         json!({
+            "calibration": self.station.structure.calibration.as_ref().map(|c| c.sentence("m", 1.0)),
             "dense_table_max_relative_error": r.table.max_relative_error,
             "dense_table_top_m": r.table.top_m(),
             "rows_above_table_computed_exactly": self.converted.counts.above_table,
@@ -554,6 +555,9 @@ impl Facts<'_> {
     fn correction_text(&self) -> String {
         let (s, c) = (self.settings, &self.converted.counts);
         let mut r = format!("gauge zero: head = stage − {} {}\n", s.zero, s.stage_unit);
+        if let Some(c) = &self.station.structure.calibration {
+            r.push_str(&format!("rating: {}\n", c.sentence("m", 1.0)));
+        }
         if s.temperature_index.is_some() && s.pressure_unit.is_none() {
             r.push_str("temperature column: read, not used (a level logger's stage needs no water density)\n");
         }
