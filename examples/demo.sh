@@ -50,5 +50,14 @@ echo "== 6. the canal flume's field sheet for the gauge house (one printable pag
 "$bin" sheet ratings/ridgeway-canal-flume.toml -o out/ridgeway-sheet.html
 
 echo
-echo "== 7. one cross-section by hand: critical depth and alternate depths"
+echo "== 7. the canal flume's rating against two seasons of field gaugings (exit 1: it departs)"
+code=0
+"$bin" gaugings ratings/ridgeway-canal-flume.toml examples/ridgeway-gaugings.csv \
+    --plot out/ridgeway-gaugings-rating.png --plot-deviation out/ridgeway-gaugings-deviation.png \
+    --write-calibration out/ridgeway-calibrated.toml || code=$?
+[ "$code" -le 1 ] || exit "$code"
+echo "   charts: out/ridgeway-gaugings-*.png   calibrated copy: out/ridgeway-calibrated.toml"
+
+echo
+echo "== 8. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4

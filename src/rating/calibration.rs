@@ -21,6 +21,10 @@ pub struct Calibration {
     pub to: String,
     /// SHA-256 of the gaugings file.
     pub source_sha256: String,
+    /// The correlation of the factor and the zero in the fit (recorded; the uncertainty budget
+    /// treats the two as independent, which overstates the calibrated rating's uncertainty when
+    /// the correlation is negative, as it usually is).
+    pub factor_zero_correlation: f64,
     /// The gaugings' mean deviation from the uncalibrated rating (%), when recorded.
     pub mean_deviation_pct: Option<f64>,
     /// Its expanded uncertainty (%).

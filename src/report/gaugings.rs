@@ -70,6 +70,8 @@ pub struct Proposed {
     pub zero_u95_m: f64,
     /// Whether the zero was fitted (else it is the station's zero with its own uncertainty).
     pub zero_fitted: bool,
+    /// Correlation of f and dz in the fit (0 when the zero was not fitted).
+    pub correlation: f64,
 }
 
 impl GaugingsReport<'_> {
@@ -92,6 +94,7 @@ impl GaugingsReport<'_> {
                     zero_m: f.zero_m,
                     zero_u95_m: COVERAGE_FACTOR * uz,
                     zero_fitted: true,
+                    correlation: f.correlation(),
                 })
             }
             FitOutcome::FactorOnly { factor, u, .. } => Some(Proposed {
@@ -100,6 +103,7 @@ impl GaugingsReport<'_> {
                 zero_m: 0.0,
                 zero_u95_m,
                 zero_fitted: false,
+                correlation: 0.0,
             }),
             FitOutcome::Nothing(_) => None,
         }
@@ -122,7 +126,7 @@ impl GaugingsReport<'_> {
         let (from, to) = self.dates();
         let mean = self.check.mean?;
         Some(format!(
-            "[calibration]\n# written by flumerate gaugings from {} ({} gauging(s)); Q = factor · Q_rating(h + zero_offset)\n# confirm before use: see the gaugings report and the cautions\nfactor = {:.6}\nfactor_u95_pct = {:.3}\nzero_offset = {:.6}\nzero_offset_u95 = {:.6}\ngaugings = {}\nfrom = \"{from}\"\nto = \"{to}\"\nsource_sha256 = \"{}\"\nmean_deviation_pct = {:.3}\nmean_deviation_u95_pct = {:.3}\n",
+            "[calibration]\n# written by flumerate gaugings from {} ({} gauging(s)); Q = factor · Q_rating(h + zero_offset)\n# confirm before use: see the gaugings report and the cautions\nfactor = {:.6}\nfactor_u95_pct = {:.3}\nzero_offset = {:.6}\nzero_offset_u95 = {:.6}\ngaugings = {}\nfrom = \"{from}\"\nto = \"{to}\"\nsource_sha256 = \"{}\"\nmean_deviation_pct = {:.3}\nmean_deviation_u95_pct = {:.3}\n# the budget treats factor and zero as independent, which overstates the calibrated\n# rating's uncertainty when they are negatively correlated (as here, usually)\nfactor_zero_correlation = {:.4}\n",
             self.file.replace('"', "'"),
             self.check.used().count(),
             p.factor,
@@ -133,6 +137,7 @@ impl GaugingsReport<'_> {
             self.sha256,
             mean.mean,
             COVERAGE_FACTOR * mean.u_scaled(),
+            p.correlation,
         ))
     }
 

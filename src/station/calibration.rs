@@ -75,6 +75,21 @@ impl Ctx<'_> {
             from: text(&c.from),
             to: text(&c.to),
             source_sha256: text(&c.source_sha256),
+            factor_zero_correlation: c
+                .factor_zero_correlation
+                .as_ref()
+                .map(|n| {
+                    self.bounded(
+                        n,
+                        "calibration.factor_zero_correlation",
+                        -1.0,
+                        1.0,
+                        false,
+                        "give the correlation of factor and zero from the fit, -1 to 1",
+                    )
+                })
+                .transpose()?
+                .unwrap_or(0.0),
             mean_deviation_pct: optional(&c.mean_deviation_pct, "calibration.mean_deviation_pct")?,
             mean_deviation_u95_pct: optional(&c.mean_deviation_u95_pct, "calibration.mean_deviation_u95_pct")?,
         })

@@ -53,6 +53,7 @@ pub struct RawCalibration {
     pub source_sha256: Option<Text>,
     pub mean_deviation_pct: Option<Num>,
     pub mean_deviation_u95_pct: Option<Num>,
+    pub factor_zero_correlation: Option<Num>,
 }
 
 /// `[screening]`
