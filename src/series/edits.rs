@@ -147,8 +147,13 @@ impl Edits {
                 )
             })
         };
-        let (ci_start, ci_end, ci_action, ci_reason) = (need("start")?, need("end")?, need("action")?, need("reason")?);
-        let ci_value = col("value_mm");
+        let columns = Columns {
+            start: need("start")?,
+            end: need("end")?,
+            action: need("action")?,
+            reason: need("reason")?,
+            value: col("value_mm"),
+        };
         let mut edits = Vec::new();
         for (k, rec) in r.records().enumerate() {
             let line = k + 2;
@@ -157,86 +162,100 @@ impl Edits {
                 continue;
             }
             let field = |i: usize| rec.get(i).unwrap_or("").to_string();
-            let time = |text: &str, what: &str| -> Result<i64, (Option<usize>, String)> {
-                match side_time(formats, zone, text) {
-                    Some(t) if t != NO_TIME => Ok(t),
-                    Some(_) => Err((
-                        Some(line),
-                        format!("{what} \"{text}\" does not exist on the logger's clock (daylight-saving gap)\n  fix: give it with its UTC offset, e.g. 2026-03-29T03:30:00+02:00"),
-                    )),
-                    None => Err((
-                        Some(line),
-                        format!("{what} \"{text}\" is neither ISO 8601 nor in the logger's formats\n  fix: write it as 2026-10-12T10:00 (logger's clock) or 2026-10-12T10:00:00+02:00"),
-                    )),
-                }
-            };
-            let (start_text, end_text) = (field(ci_start), field(ci_end));
-            if start_text.is_empty() {
-                return Err((Some(line), "no start time: every edit needs one".into()));
-            }
-            let start_ms = time(&start_text, "start")?;
-            let end_ms = if end_text.is_empty() {
-                i64::MAX
-            } else {
-                time(&end_text, "end")?
-            };
-            if end_ms < start_ms {
-                return Err((
-                    Some(line),
-                    format!("the window ends ({end_text}) before it starts ({start_text})\n  fix: swap them"),
-                ));
-            }
-            let value_mm = || -> Result<f64, (Option<usize>, String)> {
-                let text = ci_value.map(&field).unwrap_or_default();
-                let v: f64 = text.parse().map_err(|_| {
-                    (
-                        Some(line),
-                        format!("this action needs a number in the value_mm column (got \"{text}\")\n  fix: add a value_mm column and give the amount in mm"),
-                    )
-                })?;
-                if v.is_finite() && v.abs() <= 1.0e5 {
-                    Ok(v)
-                } else {
-                    Err((Some(line), format!("value_mm {v} is not a usable amount in mm")))
-                }
-            };
-            let action_text = field(ci_action);
-            let action = match action_text.as_str() {
-                "exclude" => EditAction::Exclude,
-                "fill" => EditAction::Fill,
-                "offset" => EditAction::Offset {
-                    head_m: value_mm()? / 1000.0,
-                },
-                "set-zero" => EditAction::SetZero {
-                    zero_m: value_mm()? / 1000.0,
-                },
-                other => {
-                    return Err((
-                        Some(line),
-                        format!("unknown action \"{other}\"\n  fix: use exclude, fill, offset or set-zero"),
-                    ))
-                }
-            };
-            let reason = field(ci_reason);
-            if reason.is_empty() {
-                return Err((
-                    Some(line),
-                    "no reason: every edit is written to the provenance record with its reason\n  fix: say why (e.g. \"logger lifted for cleaning\")".into(),
-                ));
-            }
-            edits.push(Edit {
-                line,
-                start_ms,
-                end_ms,
-                written: (start_text, end_text),
-                action,
-                reason,
-            });
+            edits.push(Self::edit(line, &field, &columns, formats, zone)?);
         }
         check_overlaps(&edits)?;
         Ok(Self {
             edits,
             sha256: String::new(),
+        })
+    }
+
+    /// One record of the file (line `line`) as an edit.
+    fn edit(
+        line: usize,
+        field: &dyn Fn(usize) -> String,
+        c: &Columns,
+        formats: &[TimeFormat],
+        zone: &Zone,
+    ) -> Result<Edit, (Option<usize>, String)> {
+        let time = |text: &str, what: &str| -> Result<i64, (Option<usize>, String)> {
+            match side_time(formats, zone, text) {
+                Some(t) if t != NO_TIME => Ok(t),
+                Some(_) => Err((
+                    Some(line),
+                    format!("{what} \"{text}\" does not exist on the logger's clock (daylight-saving gap)\n  fix: give it with its UTC offset, e.g. 2026-03-29T03:30:00+02:00"),
+                )),
+                None => Err((
+                    Some(line),
+                    format!("{what} \"{text}\" is neither ISO 8601 nor in the logger's formats\n  fix: write it as 2026-10-12T10:00 (logger's clock) or 2026-10-12T10:00:00+02:00"),
+                )),
+            }
+        };
+        let (start_text, end_text) = (field(c.start), field(c.end));
+        if start_text.is_empty() {
+            return Err((Some(line), "no start time: every edit needs one".into()));
+        }
+        let start_ms = time(&start_text, "start")?;
+        let end_ms = if end_text.is_empty() {
+            i64::MAX
+        } else {
+            time(&end_text, "end")?
+        };
+        if end_ms < start_ms {
+            return Err((
+                Some(line),
+                format!("the window ends ({end_text}) before it starts ({start_text})\n  fix: swap them"),
+            ));
+        }
+        let action = Self::action(line, &field(c.action), &c.value.map(field).unwrap_or_default())?;
+        let reason = field(c.reason);
+        if reason.is_empty() {
+            return Err((
+                Some(line),
+                "no reason: every edit is written to the provenance record with its reason\n  fix: say why (e.g. \"logger lifted for cleaning\")".into(),
+            ));
+        }
+        Ok(Edit {
+            line,
+            start_ms,
+            end_ms,
+            written: (start_text, end_text),
+            action,
+            reason,
+        })
+    }
+
+    /// The action named `text`, with its amount `value_mm` where it needs one.
+    fn action(line: usize, text: &str, value_mm: &str) -> Result<EditAction, (Option<usize>, String)> {
+        let value = || -> Result<f64, (Option<usize>, String)> {
+            let v: f64 = value_mm.parse().map_err(|_| {
+                (
+                    Some(line),
+                    format!("this action needs a number in the value_mm column (got \"{value_mm}\")\n  fix: add a value_mm column and give the amount in mm"),
+                )
+            })?;
+            if v.is_finite() && v.abs() <= 1.0e5 {
+                Ok(v)
+            } else {
+                Err((Some(line), format!("value_mm {v} is not a usable amount in mm")))
+            }
+        };
+        Ok(match text {
+            "exclude" => EditAction::Exclude,
+            "fill" => EditAction::Fill,
+            "offset" => EditAction::Offset {
+                head_m: value()? / 1000.0,
+            },
+            "set-zero" => EditAction::SetZero {
+                zero_m: value()? / 1000.0,
+            },
+            other => {
+                return Err((
+                    Some(line),
+                    format!("unknown action \"{other}\"\n  fix: use exclude, fill, offset or set-zero"),
+                ))
+            }
         })
     }
 
@@ -274,6 +293,15 @@ impl Edits {
     pub fn replacing_at(&self, t: i64) -> Option<usize> {
         self.edits.iter().position(|e| e.action.replaces() && e.covers(t))
     }
+}
+
+/// Where the edits file's columns are.
+struct Columns {
+    start: usize,
+    end: usize,
+    action: usize,
+    reason: usize,
+    value: Option<usize>,
 }
 
 /// Two replacing windows, or two set-zero windows, that overlap.

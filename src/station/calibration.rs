@@ -35,18 +35,7 @@ impl Ctx<'_> {
             1.5,
             "give the coefficient factor f of Q = f · Q_rating(h + zero_offset), near 1",
         )?;
-        let gaugings = match &c.gaugings {
-            Some(n) if *n.get_ref() >= 1 => *n.get_ref() as usize,
-            Some(n) => {
-                return Err(self.err(
-                    n.span(),
-                    "calibration.gaugings",
-                    "a calibration rests on at least one gauging",
-                    "give how many gaugings it rests on",
-                ))
-            }
-            None => 0,
-        };
+        let gaugings = self.gauging_count(&c.gaugings)?;
         let optional = |n: &Option<Num>, key: &str| n.as_ref().map(|n| self.number(n, key)).transpose();
         Ok(Calibration {
             factor,
@@ -75,23 +64,33 @@ impl Ctx<'_> {
             from: text(&c.from),
             to: text(&c.to),
             source_sha256: text(&c.source_sha256),
-            factor_zero_correlation: c
-                .factor_zero_correlation
-                .as_ref()
-                .map(|n| {
-                    self.bounded(
-                        n,
-                        "calibration.factor_zero_correlation",
-                        -1.0,
-                        1.0,
-                        false,
-                        "give the correlation of factor and zero from the fit, -1 to 1",
-                    )
-                })
-                .transpose()?
-                .unwrap_or(0.0),
+            factor_zero_correlation: match &c.factor_zero_correlation {
+                Some(n) => self.bounded(
+                    n,
+                    "calibration.factor_zero_correlation",
+                    -1.0,
+                    1.0,
+                    false,
+                    "give the fit's correlation, -1 to 1",
+                )?,
+                None => 0.0,
+            },
             mean_deviation_pct: optional(&c.mean_deviation_pct, "calibration.mean_deviation_pct")?,
             mean_deviation_u95_pct: optional(&c.mean_deviation_u95_pct, "calibration.mean_deviation_u95_pct")?,
         })
+    }
+
+    /// How many gaugings a calibration rests on (0 when the file does not say).
+    fn gauging_count(&self, n: &Option<Spanned<i64>>) -> Result<usize, StationError> {
+        match n {
+            Some(n) if *n.get_ref() >= 1 => Ok(*n.get_ref() as usize),
+            Some(n) => Err(self.err(
+                n.span(),
+                "calibration.gaugings",
+                "a calibration rests on at least one gauging",
+                "give how many gaugings it rests on",
+            )),
+            None => Ok(0),
+        }
     }
 }

@@ -92,6 +92,22 @@ pub struct Inputs {
     pub reading: Input,
 }
 
+/// The coefficient's and the zero's expanded uncertainty (% and mm) from a calibration, with
+/// their sources.
+fn calibration_inputs(cal: &crate::rating::Calibration) -> ((f64, String), (f64, String)) {
+    let from = format!(
+        "calibration against {} gauging(s) ({} to {})",
+        cal.gaugings, cal.from, cal.to
+    );
+    (
+        (cal.factor_u95_pct, format!("{from}: the factor's uncertainty")),
+        (
+            cal.zero_offset_u95_m * 1000.0,
+            format!("{from}: the zero correction's uncertainty"),
+        ),
+    )
+}
+
 /// Names of the inputs in output order.
 pub const INPUT_NAMES: [&str; 4] = ["coefficient", "dimension", "zero", "reading"];
 
@@ -140,16 +156,7 @@ impl Inputs {
         // by what the gaugings gave (normal, k = 2)
         let calibrated = structure.calibration.as_ref();
         if let Some(cal) = calibrated {
-            c = cal.factor_u95_pct;
-            cs = format!(
-                "calibration against {} gauging(s) ({} to {}): the factor's uncertainty",
-                cal.gaugings, cal.from, cal.to
-            );
-            z = cal.zero_offset_u95_m * 1000.0;
-            zs = format!(
-                "calibration against {} gauging(s) ({} to {}): the zero correction's uncertainty",
-                cal.gaugings, cal.from, cal.to
-            );
+            ((c, cs), (z, zs)) = calibration_inputs(cal);
         }
         let (h, hs) = pick(
             spec.head_mm,
