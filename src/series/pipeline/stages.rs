@@ -307,6 +307,44 @@ pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, 
     }
 }
 
+/// One core's share of a chunk: the rows converted, with their own counts, summaries and
+/// hydrograph buckets (merged by the caller in order).
+fn convert_part(
+    conv: &Conversion,
+    times: &Times,
+    raw: &RawSeries,
+    inputs: &Inputs,
+    part: &[usize],
+    mut buckets: HydroBuckets,
+) -> (Chunk, Counts, Summaries, HydroBuckets) {
+    let (mut c, mut sm) = (Counts::default(), Summaries::default());
+    let chunk = conv.convert_rows(
+        part,
+        &times.utc,
+        &times.days,
+        &raw.values,
+        &raw.lines,
+        inputs,
+        &mut c,
+        &mut sm,
+    );
+    buckets.add_rows(chunk.time_ms.len(), |k| BucketRow {
+        t_ms: chunk.time_ms[k],
+        q: chunk.discharge_m3s[k],
+        lo: chunk.low_m3s[k],
+        hi: chunk.high_m3s[k],
+        head: chunk.head_m[k],
+        kind: if chunk.flag[k].measured() {
+            RowKind::Measured
+        } else if chunk.flag[k].estimated() {
+            RowKind::Estimated
+        } else {
+            RowKind::NoDischarge
+        },
+    });
+    (chunk, c, sm, buckets)
+}
+
 /// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, each chunk on all cores; hands every
 /// finished chunk to `emit` in output order (which returns false to stop: a writer that failed)
 /// and reports progress in rows. Each core's part keeps its own counts and summaries, merged in
@@ -345,35 +383,8 @@ pub fn convert_all(
             let handles: Vec<_> = idx
                 .chunks(per)
                 .map(|part| {
-                    let mut b = empty.clone();
-                    scope.spawn(move || {
-                        let (mut c, mut sm) = (Counts::default(), Summaries::default());
-                        let chunk = conv.convert_rows(
-                            part,
-                            &times.utc,
-                            &times.days,
-                            &raw.values,
-                            &raw.lines,
-                            inputs,
-                            &mut c,
-                            &mut sm,
-                        );
-                        b.add_rows(chunk.time_ms.len(), |k| BucketRow {
-                            t_ms: chunk.time_ms[k],
-                            q: chunk.discharge_m3s[k],
-                            lo: chunk.low_m3s[k],
-                            hi: chunk.high_m3s[k],
-                            head: chunk.head_m[k],
-                            kind: if chunk.flag[k].measured() {
-                                RowKind::Measured
-                            } else if chunk.flag[k].estimated() {
-                                RowKind::Estimated
-                            } else {
-                                RowKind::NoDischarge
-                            },
-                        });
-                        (chunk, c, sm, b)
-                    })
+                    let b = empty.clone();
+                    scope.spawn(move || convert_part(conv, times, raw, inputs, part, b))
                 })
                 .collect();
             handles
