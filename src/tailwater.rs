@@ -347,7 +347,12 @@ pub fn modular_limit_at(
 ) -> (f64, f64, f64) {
     let s = model.structure();
     let g = s.gravity_m_s2;
-    let h2_max = match exit.fixed_modular_limit {
+    // a standard structure has its standard's modular limit unless the station gives one
+    let standard = match s.loss {
+        crate::rating::LossMethod::Standard(rule) => Some(rule.modular_limit().0),
+        _ => None,
+    };
+    let h2_max = match exit.fixed_modular_limit.or(standard) {
         Some(ml) => ml * p.energy_head_m,
         None => {
             let area = s.control.area_m2(p.critical_depth_m);
@@ -634,7 +639,10 @@ pub fn submerged_estimate(
 ) -> Result<f64, NoEstimate> {
     if submergence <= modular_limit {
         Err(NoEstimate::Modular)
-    } else if model.structure().kind != crate::rating::StructureKind::Weir {
+    } else if !matches!(
+        model.structure().kind,
+        crate::rating::StructureKind::Weir | crate::rating::StructureKind::ThinPlateWeir
+    ) {
         Err(NoEstimate::NotAWeir)
     } else if submergence > MAX_CORRECTABLE_SUBMERGENCE {
         Err(NoEstimate::TooDrowned)

@@ -8,6 +8,7 @@ mod output;
 mod rate;
 mod section;
 mod sheet;
+mod structures;
 mod tailwater;
 mod verify;
 
@@ -17,7 +18,8 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand, ValueEnum};
 
 /// Head→discharge ratings for broad-crested weirs and long-throated flumes, from surveyed
-/// dimensions, by critical-flow theory.
+/// dimensions, by critical-flow theory; and for thin-plate weirs, Parshall flumes, square-edged
+/// and triangular-profile weirs, by their standards' published ratings.
 ///
 /// Computed ratings must be confirmed by field gaugings; follow local codes and licensed
 /// professional practice where flows are used for compliance, billing or water rights.
@@ -47,6 +49,8 @@ enum Command {
     Gaugings(gaugings::GaugingsArgs),
     /// Run the built-in checks against published reference values
     Verify(verify::VerifyArgs),
+    /// The structure families and standard sizes, with their sources; one in detail
+    Structures(structures::StructuresArgs),
 }
 
 /// Output unit system.
@@ -130,6 +134,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Convert(a) => convert::run(*a),
         Command::Sheet(a) => sheet::run(a),
         Command::Gaugings(a) => gaugings::run(a),
+        Command::Structures(a) => structures::run(a),
         Command::Verify(a) => verify::run(a),
     }
 }

@@ -53,7 +53,7 @@ pub fn run(a: TailwaterArgs) -> anyhow::Result<ExitCode> {
     let tailwater = Tailwater::new(spec, station.structure.gravity_m_s2);
     let result = check(&model, &exit, &tailwater, &heads)
         .with_context(|| format!("{}: tailwater check", a.station.display()))?;
-    let method = exit_method(&station.exit, &exit);
+    let method = exit_method(&station.exit, &exit, &station.structure);
     let calibration = station.structure.calibration.as_ref().map(|c| {
         let (lu, _) = units.symbols();
         c.sentence(lu, units.length_from_si(1.0))

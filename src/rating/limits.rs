@@ -6,6 +6,7 @@
 //! docs/references.md S3, S4 and S5 for what was and was not read in the sources.
 
 use super::model::{LossMethod, RatingPoint, Structure, StructureKind};
+use super::standard::StandardRule;
 use crate::hydraulics::Section;
 
 /// What a limit is evaluated on.
@@ -134,7 +135,7 @@ pub const LIMITS: &[Limit] = &[
         source: "Bos 1989 and Clemmens et al. 2001: within their limits long-throated flumes and round-nosed broad-crested weirs have Cd of about 0.90 to 1.0 (from memory)",
         kind: None,
         holds: |c| match c.structure.loss {
-            LossMethod::FixedCd(_) => None,
+            LossMethod::FixedCd(_) | LossMethod::Standard(_) => None,
             _ => Some(c.point.cd >= 0.90 - 1e-12),
         },
     },
@@ -166,9 +167,245 @@ pub const LIMITS: &[Limit] = &[
     },
 ];
 
+/// The standard rule of a structure, if it has one.
+fn rule(s: &Structure) -> Option<StandardRule> {
+    match s.loss {
+        LossMethod::Standard(r) => Some(r),
+        _ => None,
+    }
+}
+
+/// `test` when the structure is rated by `which`, else not applicable.
+fn when(s: &Structure, which: fn(&StandardRule) -> bool, test: impl FnOnce() -> bool) -> Option<bool> {
+    rule(s).filter(which).map(|_| test())
+}
+
+fn is_rect_plate(r: &StandardRule) -> bool {
+    matches!(r, StandardRule::RectangularPlate)
+}
+
+fn is_v_notch(r: &StandardRule) -> bool {
+    matches!(r, StandardRule::VNotch { .. })
+}
+
+fn is_cipoletti(r: &StandardRule) -> bool {
+    matches!(r, StandardRule::Cipoletti)
+}
+
+/// The channel width B at the plate (m).
+fn channel_width_m(s: &Structure) -> f64 {
+    s.approach.characteristic_width_m()
+}
+
+/// Slack for the comparisons of the limits below (m or ratio).
+const EPS: f64 = 1e-12;
+
+/// The limits of the standard structures, each with its source (ISO 1438 values from memory,
+/// docs/references.md S17–S19).
+pub const STANDARD_LIMITS: &[Limit] = &[
+    Limit {
+        id: "h>=0.03m",
+        rule: "head at least 0.03 m (Kindsvater–Carter rectangular weir)",
+        source: "ISO 1438:2017 §9.6.4 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_rect_plate, || c.point.head_m >= 0.03 - EPS),
+    },
+    Limit {
+        id: "h/p<=2.5",
+        rule: "head at most 2.5 times the plate height",
+        source: "ISO 1438:2017 §9.6.4 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_rect_plate, || c.point.head_m <= 2.5 * c.structure.sill_height_m + EPS),
+    },
+    Limit {
+        id: "b>=0.15m",
+        rule: "notch width at least 0.15 m",
+        source: "ISO 1438:2017 §9.6.4 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_rect_plate, || c.structure.control.characteristic_width_m() >= 0.15 - EPS),
+    },
+    Limit {
+        id: "p>=0.10m",
+        rule: "plate height at least 0.10 m",
+        source: "ISO 1438:2017 §9.6.4 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_rect_plate, || c.structure.sill_height_m >= 0.10 - EPS),
+    },
+    Limit {
+        id: "(B-b)/2>=0.10m",
+        rule: "each side contraction at least 0.10 m wide, unless the notch spans the channel (b = B)",
+        source: "ISO 1438:2017 §9.6.4 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| {
+            when(c.structure, is_rect_plate, || {
+                let side = (channel_width_m(c.structure) - c.structure.control.characteristic_width_m()) / 2.0;
+                side <= 1e-6 || side >= 0.10 - EPS
+            })
+        },
+    },
+    Limit {
+        id: "0.05m<=h<=0.38m",
+        rule: "head between 0.05 m and 0.38 m (fully contracted V-notch)",
+        source: "ISO 1438:2017 §10 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_v_notch, || (0.05 - EPS..=0.38 + EPS).contains(&c.point.head_m)),
+    },
+    Limit {
+        id: "h/p<=0.4",
+        rule: "head at most 0.4 times the vertex height (fully contracted)",
+        source: "ISO 1438:2017 §10 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_v_notch, || c.point.head_m <= 0.4 * c.structure.sill_height_m + EPS),
+    },
+    Limit {
+        id: "h/B<=0.2",
+        rule: "head at most 0.2 times the channel width (fully contracted)",
+        source: "ISO 1438:2017 §10 (from memory); Ponce, SDSU V-notch note",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_v_notch, || c.point.head_m <= 0.2 * channel_width_m(c.structure) + EPS),
+    },
+    Limit {
+        id: "p>=0.45m",
+        rule: "vertex at least 0.45 m above the approach bed (fully contracted)",
+        source: "ISO 1438:2017 §10 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_v_notch, || c.structure.sill_height_m >= 0.45 - EPS),
+    },
+    Limit {
+        id: "B>=0.90m",
+        rule: "approach channel at least 0.90 m wide (fully contracted)",
+        source: "ISO 1438:2017 §10 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_v_notch, || channel_width_m(c.structure) >= 0.90 - EPS),
+    },
+    Limit {
+        id: "h>=0.06m",
+        rule: "head at least 0.06 m (0.2 ft)",
+        source: "USBR Water Measurement Manual ch. 7 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_cipoletti, || c.point.head_m >= 0.06 - EPS),
+    },
+    Limit {
+        id: "h<=b/3",
+        rule: "head at most a third of the crest width",
+        source: "USBR Water Measurement Manual ch. 7 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| {
+            when(c.structure, is_cipoletti, || {
+                c.point.head_m <= c.structure.control.characteristic_width_m() / 3.0 + EPS
+            })
+        },
+    },
+    Limit {
+        id: "p>=2h",
+        rule: "crest at least twice the head above the approach bed",
+        source: "USBR Water Measurement Manual ch. 7 (from memory)",
+        kind: Some(StructureKind::ThinPlateWeir),
+        holds: |c| when(c.structure, is_cipoletti, || c.structure.sill_height_m >= 2.0 * c.point.head_m - EPS),
+    },
+    Limit {
+        id: "Ha-in-range",
+        rule: "head Ha within the size's published free-flow range",
+        source: "USBR Water Measurement Manual ch. 8, free-flow capacities of the standard sizes (from memory)",
+        kind: Some(StructureKind::Parshall),
+        holds: |c| match rule(c.structure) {
+            Some(StandardRule::Parshall(size)) => {
+                let (lo, hi) = size.head_range_m();
+                Some((lo - EPS..=hi + EPS).contains(&c.point.head_m))
+            }
+            _ => None,
+        },
+    },
+    Limit {
+        id: "h1>=0.06m",
+        rule: "gauged head h1 at least 0.06 m",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| Some(c.point.head_m >= 0.06 - EPS),
+    },
+    Limit {
+        id: "0.08<=h1/L<=0.33",
+        rule: "h1/L between 0.08 and 0.33, where critical flow is established on the crest and C = 0.848 (the standard's short-crest correction above 0.33 is not in flumerate)",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| {
+            let r = c.point.head_m / c.structure.control_length_m;
+            Some((0.08 - EPS..=0.33 + EPS).contains(&r))
+        },
+    },
+    Limit {
+        id: "h1/p<=1.6",
+        rule: "gauged head at most 1.6 times the weir height",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| Some(c.point.head_m <= 1.6 * c.structure.sill_height_m + EPS),
+    },
+    Limit {
+        id: "p>=0.15m",
+        rule: "weir height p at least 0.15 m",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| Some(c.structure.sill_height_m >= 0.15 - EPS),
+    },
+    Limit {
+        id: "b>=0.30m",
+        rule: "crest width at least 0.30 m",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| Some(c.structure.control.characteristic_width_m() >= 0.30 - EPS),
+    },
+    Limit {
+        id: "0.15<=p/L<=4",
+        rule: "weir height between 0.15 and 4 times the crest length",
+        source: "ISO 3846 (from memory)",
+        kind: Some(StructureKind::SquareEdgedWeir),
+        holds: |c| {
+            let r = c.structure.sill_height_m / c.structure.control_length_m;
+            Some((0.15 - EPS..=4.0 + EPS).contains(&r))
+        },
+    },
+    Limit {
+        id: "h1>=0.03m",
+        rule: "gauged head at least 0.03 m (a smooth metal crest; 0.06 m for concrete)",
+        source: "ISO 4360 (from memory)",
+        kind: Some(StructureKind::TriangularProfileWeir),
+        holds: |c| Some(c.point.head_m >= 0.03 - EPS),
+    },
+    Limit {
+        id: "h1/p<=3.0",
+        rule: "gauged head at most 3 times the weir height",
+        source: "ISO 4360 (from memory)",
+        kind: Some(StructureKind::TriangularProfileWeir),
+        holds: |c| Some(c.point.head_m <= 3.0 * c.structure.sill_height_m + EPS),
+    },
+    Limit {
+        id: "p>=0.06m",
+        rule: "weir height at least 0.06 m",
+        source: "ISO 4360 (from memory)",
+        kind: Some(StructureKind::TriangularProfileWeir),
+        holds: |c| Some(c.structure.sill_height_m >= 0.06 - EPS),
+    },
+    Limit {
+        id: "b>=0.30m",
+        rule: "crest width at least 0.30 m",
+        source: "ISO 4360 (from memory)",
+        kind: Some(StructureKind::TriangularProfileWeir),
+        holds: |c| Some(c.structure.control.characteristic_width_m() >= 0.30 - EPS),
+    },
+    Limit {
+        id: "b/h1>=2",
+        rule: "crest width at least twice the gauged head",
+        source: "ISO 4360 (from memory)",
+        kind: Some(StructureKind::TriangularProfileWeir),
+        holds: |c| Some(c.structure.control.characteristic_width_m() >= 2.0 * c.point.head_m - EPS),
+    },
+];
+
 /// The limits that apply to a structure of this kind.
 pub fn limits_for(kind: StructureKind) -> impl Iterator<Item = &'static Limit> {
-    LIMITS.iter().filter(move |l| l.kind.is_none_or(|k| k == kind))
+    // the general limits belong to the critical-flow method; a standard structure has its own
+    let list = if kind.critical_flow() { LIMITS } else { STANDARD_LIMITS };
+    list.iter().filter(move |l| l.kind.is_none_or(|k| k == kind))
 }
 
 /// The identifiers of the limits a point breaks (empty when it is within all of them).

@@ -29,7 +29,8 @@
 //! The reported coefficients follow the usual definitions: Cv = Q_ideal(H1)/Q_ideal(h1) (for a
 //! rectangle (H1/h1)^{3/2}, Bos 1989 §1.10) and Cd = Q/Q_ideal(H1).
 
-use crate::hydraulics::{critical_at_energy, GeometryError, Section};
+use super::standard::{self, StandardRule};
+use crate::hydraulics::{critical_at_energy, critical_depths_m, GeometryError, Section};
 
 /// How losses between the gauging section and the control enter the rating.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -47,6 +48,8 @@ pub enum LossMethod {
         /// δ* in metres (0.003·L).
         displacement_thickness_m: f64,
     },
+    /// A standard's own rating (thin-plate weirs, Parshall flumes, ISO 3846, ISO 4360).
+    Standard(StandardRule),
 }
 
 impl LossMethod {}
@@ -56,8 +59,35 @@ impl LossMethod {}
 pub enum StructureKind {
     /// A long-throated flume (ISO 4359; Clemmens et al. 2001).
     Flume,
-    /// A broad-crested weir across the channel (ISO 4374 / ISO 3846 family).
+    /// A round-nosed broad-crested weir across the channel (ISO 4374; critical-flow method).
     Weir,
+    /// A thin-plate weir (ISO 1438): rectangular, V-notch or Cipoletti.
+    ThinPlateWeir,
+    /// A Parshall flume of a standard size (ASTM D1941 / ISO 9826).
+    Parshall,
+    /// A square-edged broad-crested weir (ISO 3846).
+    SquareEdgedWeir,
+    /// A triangular-profile weir (ISO 4360).
+    TriangularProfileWeir,
+}
+
+impl StructureKind {
+    /// The family in a few words.
+    pub fn describe(self) -> &'static str {
+        match self {
+            StructureKind::Flume => "long-throated flume",
+            StructureKind::Weir => "broad-crested weir",
+            StructureKind::ThinPlateWeir => "thin-plate weir",
+            StructureKind::Parshall => "Parshall flume",
+            StructureKind::SquareEdgedWeir => "square-edged broad-crested weir",
+            StructureKind::TriangularProfileWeir => "triangular-profile weir",
+        }
+    }
+
+    /// True for the families rated by critical-flow theory from their dimensions.
+    pub fn critical_flow(self) -> bool {
+        matches!(self, StructureKind::Flume | StructureKind::Weir)
+    }
 }
 
 /// The surveyed structure in SI units: everything the rating needs.
@@ -200,6 +230,9 @@ enum Control {
     Fixed { cd: f64 },
     /// The geometric section with ISO 4359's Cd of the gauged head.
     Iso { displacement_m: f64, width_m: f64 },
+    /// The geometric section with a standard's coefficient of the gauged head (ISO 3846, ISO
+    /// 4360), or a standard's own equation of the gauged head (thin-plate weirs, Parshall).
+    Standard(StandardRule),
 }
 
 /// Flow through the control at one energy head.
@@ -240,6 +273,7 @@ impl RatingModel {
                     width_m: structure.control.characteristic_width_m(),
                 }
             }
+            LossMethod::Standard(rule) => Control::Standard(rule),
         };
         Ok(Self {
             structure,
@@ -291,6 +325,15 @@ impl RatingModel {
                 let cd = (1.0 - 2.0 * displacement_m / width_m) * (1.0 - displacement_m / head_m).max(0.0).powf(1.5);
                 (&self.structure.control, 0.0, cd * self.cd_factor)
             }
+            Control::Standard(rule) => {
+                let cd = match rule {
+                    StandardRule::SquareEdged => standard::square_edged_cd(head_m),
+                    StandardRule::TriangularProfile => standard::triangular_profile_cd(head_m),
+                    // rated by their own equations in `empirical_point`
+                    _ => 1.0,
+                };
+                (&self.structure.control, 0.0, cd * self.cd_factor)
+            }
         };
         let c = critical_at_energy(section, energy_head_m - rise_m, 1.0, g);
         ControlFlow {
@@ -333,6 +376,11 @@ impl RatingModel {
     fn point_from_dimensions(&self, head_m: f64) -> Result<RatingPoint, RatingError> {
         if !(head_m.is_finite() && head_m > 0.0) {
             return Err(RatingError::HeadNotPositive { head_m });
+        }
+        if let Control::Standard(rule) = self.control {
+            if !matches!(rule, StandardRule::SquareEdged | StandardRule::TriangularProfile) {
+                return self.empirical_point(rule, head_m);
+            }
         }
         let s = &self.structure;
         let g = s.gravity_m_s2;
@@ -397,6 +445,68 @@ impl RatingModel {
             froude_approach: v1 / (g * a1 / b1).sqrt(),
             approach_velocity_m_s: v1,
             control_critical_states: flow.states,
+        })
+    }
+}
+
+impl RatingModel {
+    /// A thin-plate weir or Parshall flume at gauged head `head_m`: the standard's equation of
+    /// the gauged head, whose coefficient carries the approach velocity. The point reports the
+    /// standard's effective coefficient as Cd, Cv = 1, the energy head h1 + α·V1²/2g at the
+    /// approach section (for the tailwater check; Ha itself for a Parshall flume, whose
+    /// submergence is a ratio of heads) and the critical depth of the control section at Q.
+    fn empirical_point(&self, rule: StandardRule, head_m: f64) -> Result<RatingPoint, RatingError> {
+        let s = &self.structure;
+        let g = s.gravity_m_s2;
+        // the control's width as surveyed (a perturbed model scales it: Q in proportion)
+        let (q, coefficient) = match (rule, &s.control) {
+            (StandardRule::RectangularPlate, Section::Rectangle { width_m }) => {
+                let big_b = s.approach.characteristic_width_m();
+                standard::rectangular_plate_m3s(head_m, *width_m, big_b, s.sill_height_m)
+            }
+            (StandardRule::VNotch { angle_deg }, Section::Triangle { side_slope }) => {
+                let nominal = (angle_deg.to_radians() / 2.0).tan();
+                let (q, ce) = standard::v_notch_m3s(head_m, angle_deg);
+                (q * side_slope / nominal, ce)
+            }
+            (StandardRule::Cipoletti, Section::Trapezoid { bottom_width_m, .. }) => {
+                standard::cipoletti_m3s(head_m, *bottom_width_m)
+            }
+            (StandardRule::Parshall(size), Section::Rectangle { width_m }) => {
+                let q = size.discharge_m3s(head_m) * width_m / size.throat_m();
+                (q, f64::NAN)
+            }
+            _ => return Err(RatingError::HeadNotPositive { head_m }),
+        };
+        let q = q * self.cd_factor;
+        let approach_depth = head_m + s.sill_height_m;
+        let a1 = s.approach.area_m2(approach_depth);
+        let b1 = s.approach.top_width_m(approach_depth);
+        let v1 = q / a1;
+        let energy = match rule {
+            StandardRule::Parshall(_) => head_m,
+            _ => head_m + s.approach_alpha * v1 * v1 / (2.0 * g),
+        };
+        let critical = critical_depths_m(&s.control, q, 1.0, g)
+            .ok()
+            .and_then(|d| d.first().copied())
+            .unwrap_or(f64::NAN);
+        let cd = if coefficient.is_nan() {
+            // Parshall: the ratio to the ideal critical-flow discharge of the throat at Ha
+            q / self.ideal_discharge_m3s(head_m)
+        } else {
+            coefficient * self.cd_factor
+        };
+        Ok(RatingPoint {
+            head_m,
+            energy_head_m: energy,
+            discharge_m3s: q,
+            critical_depth_m: critical,
+            cd,
+            cv: 1.0,
+            froude_approach: v1 / (g * a1 / b1).sqrt(),
+            approach_velocity_m_s: v1,
+            control_critical_states: 1,
         })
     }
 }

@@ -7,6 +7,7 @@ pub mod plot;
 pub mod rating;
 pub mod section;
 pub mod sheet;
+pub mod structures;
 pub mod tailwater;
 
 /// The cautions printed with every rating (design.md, "Cautions shown to users").

@@ -11,10 +11,17 @@ use plotters::style::RGBColor;
 
 /// How the modular limit is obtained, in words for the report's header: the value given in
 /// `[exit]`, or the energy balance over the exit with its expansion and loss coefficient.
-pub fn exit_method(spec: &ExitSpec, exit: &Exit) -> String {
-    match exit.fixed_modular_limit {
-        Some(ml) => format!("{ml} as given in [exit] modular_limit"),
-        None => format!(
+/// A standard structure without a given value states its standard's modular limit.
+pub fn exit_method(spec: &ExitSpec, exit: &Exit, structure: &crate::rating::Structure) -> String {
+    let standard = match structure.loss {
+        crate::rating::LossMethod::Standard(rule) => Some(rule.modular_limit()),
+        _ => None,
+    };
+    match (exit.fixed_modular_limit, standard) {
+        (Some(ml), _) => format!("{ml} as given in [exit] modular_limit"),
+        (None, Some((0.0, source))) => format!("tailwater below the crest: {source}"),
+        (None, Some((ml, source))) => format!("{ml}: {source}"),
+        (None, None) => format!(
             "energy balance over the exit (Bos & Reinink 1981): {} with loss coefficient {} (from memory), throat friction beyond the control (smooth flat plate)",
             if spec.expansion > 0.0 {
                 format!("a 1:{} expansion", spec.expansion)
@@ -359,7 +366,7 @@ impl TailwaterReport<'_> {
             ],
             shaded,
             shaded_label: "drowned: the rating reads high".into(),
-            caption: "levels referred to the crest; modular limit by energy balance over the exit. Computed, not gauged: confirm in the field.".into(),
+            caption: "levels referred to the crest; modular limit as stated in the report. Computed, not gauged: confirm in the field.".into(),
         }
     }
 }

@@ -6,6 +6,7 @@ use std::ops::Range;
 
 use super::raw::{RawCoefficient, RawControl, RawStation};
 use super::shape::ShapeKeys;
+use super::standard::Family;
 use super::{Ctx, LengthUnit, StationError, ISO_4359_DISPLACEMENT_RATIO};
 use crate::hydraulics::Section;
 use crate::rating::{LossMethod, StructureKind};
@@ -16,6 +17,8 @@ pub(super) struct ControlPart {
     pub length_m: f64,
     pub loss: LossMethod,
     pub kind: StructureKind,
+    /// A thin-plate weir's plate height p (m), which stands in for `[approach] sill_height`.
+    pub plate_height_m: Option<f64>,
 }
 
 impl Ctx<'_> {
@@ -30,6 +33,12 @@ impl Ctx<'_> {
         };
         let span = control.span();
         let c = control.get_ref();
+        match self.family(c)? {
+            Family::CriticalFlow => {}
+            Family::ThinPlate => return self.thin_plate(c, span, unit),
+            Family::Parshall => return Ok(self.parshall(c, span)?.0),
+            f @ (Family::SquareEdged | Family::TriangularProfile) => return self.standard_weir(c, span, unit, f),
+        }
         let section = self.section(
             ShapeKeys {
                 table: "control",
@@ -70,6 +79,7 @@ impl Ctx<'_> {
             length_m,
             loss,
             kind,
+            plate_height_m: None,
         })
     }
 
@@ -183,7 +193,7 @@ impl Ctx<'_> {
                         s.span(),
                         "control.structure",
                         format!("unknown structure \"{other}\""),
-                        "use structure = \"flume\" (long-throated flume) or \"weir\" (broad-crested weir)",
+                        "use structure = \"flume\" (long-throated flume), \"weir\" (broad-crested weir), \"thin-plate-weir\", \"parshall\" or \"triangular-profile-weir\"",
                     ))
                 }
             },
@@ -203,13 +213,8 @@ impl Ctx<'_> {
                 "add upstream_edge = \"rounded\" (a rounded nose, ISO 4374) or \"square\" (a square upstream corner, ISO 3846)",
             )),
             (StructureKind::Weir, Some(e)) => match e.get_ref().as_str() {
-                "rounded" => Ok(()),
-                "square" => Err(self.err(
-                    e.span(),
-                    "control.upstream_edge",
-                    "a square-edged broad-crested weir separates the flow at its upstream corner; the critical-flow method (rounded noses only) would rate it about 15 % high, and flumerate has no method for it yet",
-                    "rate it with the coefficients of ISO 3846 by hand, or round the nose (radius at least 0.2·h1max, ISO 4374) and rate it as \"rounded\"",
-                )),
+                // "square" is the ISO 3846 family, checked in standard.rs
+                "rounded" | "square" => Ok(()),
                 other => Err(self.err(
                     e.span(),
                     "control.upstream_edge",
@@ -223,7 +228,7 @@ impl Ctx<'_> {
                 "upstream_edge describes a broad-crested weir's crest, not a flume",
                 "remove it, or set structure = \"weir\"",
             )),
-            (StructureKind::Flume, None) => Ok(()),
+            (_, _) => Ok(()),
         }
     }
 }

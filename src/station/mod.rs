@@ -10,6 +10,7 @@ mod logger;
 mod raw;
 mod screening;
 mod shape;
+mod standard;
 mod tables;
 mod tailwater;
 
@@ -135,6 +136,10 @@ impl HeadRange {
             crate::rating::StructureKind::Weir => {
                 (0.06f64.max(0.07 * l), (0.57 * l).min(1.5 * structure.sill_height_m))
             }
+            _ => match structure.loss {
+                crate::rating::LossMethod::Standard(rule) => rule.default_head_range_m(structure),
+                _ => return None,
+            },
         };
         (lo < hi).then_some(Self {
             min_head_m: lo,
@@ -404,7 +409,13 @@ impl Ctx<'_> {
     fn build(&self, raw: RawStation) -> Result<Station, StationError> {
         let (name, unit, gravity) = self.header(&raw)?;
         let control = self.control(&raw, unit)?;
-        let (approach, sill_height_m, approach_alpha) = self.approach(&raw, unit)?;
+        let (approach, sill_height_m, approach_alpha) = match (control.loss, control.plate_height_m) {
+            (crate::rating::LossMethod::Standard(crate::rating::StandardRule::Parshall(size)), _) => {
+                self.parshall_approach(&raw, size)?
+            }
+            (_, Some(plate_m)) => self.plate_approach(&raw, unit, plate_m)?,
+            _ => self.approach(&raw, unit)?,
+        };
         let given_range = self.range(&raw, unit)?;
         let exit = self.exit(&raw)?;
         let tailwater = raw.tailwater.as_ref().map(|t| self.tailwater(t, unit)).transpose()?;

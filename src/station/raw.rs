@@ -83,6 +83,9 @@ pub struct RawControl {
     pub roughness: Option<Num>,
     pub structure: Option<Text>,
     pub upstream_edge: Option<Text>,
+    pub notch_angle_deg: Option<Num>,
+    pub plate_height: Option<Num>,
+    pub size: Option<Text>,
 }
 
 /// `[approach]`

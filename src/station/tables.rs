@@ -1,13 +1,14 @@
 //! The smaller tables of a station file, each checked by a function of its own: the name, unit
 //! and gravity at the top, `[approach]`, `[range]`, `[exit]` and `[uncertainty]`.
 
-use super::raw::{Num, RawStation, Text};
+use super::raw::{Num, RawApproach, RawStation, Text};
 use super::shape::ShapeKeys;
 use super::{
     escape_controls, Ctx, ExitSpec, HeadRange, InputDistribution, LengthUnit, RangeSource, StationError,
     UncertaintySpec,
 };
 use crate::hydraulics::{Section, STANDARD_GRAVITY_M_S2};
+use toml::Spanned;
 
 impl Ctx<'_> {
     /// The top of the file: the station's name, the length unit and gravity.
@@ -68,18 +69,7 @@ impl Ctx<'_> {
         };
         let aspan = approach.span();
         let a = approach.get_ref();
-        let approach_section = self.section(
-            ShapeKeys {
-                table: "approach",
-                span: aspan.clone(),
-                shape: a.shape.as_ref(),
-                width: a.width.as_ref(),
-                side_slope: a.side_slope.as_ref(),
-                diameter: a.diameter.as_ref(),
-                points: a.points.as_ref(),
-            },
-            unit,
-        )?;
+        let (approach_section, alpha) = self.approach_section(approach, unit)?;
         let sill_height_m = match &a.sill_height {
             Some(p) => {
                 let v = self.number(p, "approach.sill_height")?;
@@ -101,6 +91,29 @@ impl Ctx<'_> {
                 ))
             }
         };
+        Ok((approach_section, sill_height_m, alpha))
+    }
+
+    /// The approach section of `[approach]` and its Coriolis coefficient α (default 1).
+    pub(super) fn approach_section(
+        &self,
+        approach: &Spanned<RawApproach>,
+        unit: LengthUnit,
+    ) -> Result<(Section, f64), StationError> {
+        let aspan = approach.span();
+        let a = approach.get_ref();
+        let approach_section = self.section(
+            ShapeKeys {
+                table: "approach",
+                span: aspan.clone(),
+                shape: a.shape.as_ref(),
+                width: a.width.as_ref(),
+                side_slope: a.side_slope.as_ref(),
+                diameter: a.diameter.as_ref(),
+                points: a.points.as_ref(),
+            },
+            unit,
+        )?;
         let alpha = match &a.alpha {
             Some(n) => self.bounded(
                 n,
@@ -112,7 +125,7 @@ impl Ctx<'_> {
             )?,
             None => 1.0,
         };
-        Ok((approach_section, sill_height_m, alpha))
+        Ok((approach_section, alpha))
     }
 
     /// `[range]`: optional; `None` when the file has none (the caller takes the heads the

@@ -133,9 +133,12 @@ impl Inputs {
                 3.0,
                 "default: upper end of ±2–3 % typical of ISO flumes and broad-crested weirs (ISO 4359, ISO 4374 and Bos 1989 typical values, from memory)",
             ),
+            (LossMethod::Standard(rule), _) => rule.coefficient_u95(),
             (_, StructureKind::Weir) => (3.0, "default: Bos 1989 §4.1, about 3 % (from memory)"),
             (_, StructureKind::Flume) if rectangular => (2.0, "default: ISO 4359, ±2 % for rectangular throats (from memory)"),
             (_, StructureKind::Flume) => (3.0, "default: ISO 4359, ±3 % for trapezoidal and U throats (from memory)"),
+            // standard families always carry LossMethod::Standard
+            (_, _) => (5.0, "default: ±5 % (common practice, no source)"),
         };
         let pick = |v: Option<f64>, default: f64, source: &str| match v {
             Some(v) => (v, given()),

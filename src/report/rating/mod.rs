@@ -218,7 +218,11 @@ impl<'a> RatingReport<'a> {
             lines,
             shaded,
             shaded_label: "outside the limits of application".into(),
-            caption: "computed by critical-flow theory; confirm by field gaugings".into(),
+            caption: if self.model.structure().kind.critical_flow() {
+                "computed by critical-flow theory; confirm by field gaugings".into()
+            } else {
+                "computed from the standard's published rating; confirm by field gaugings".into()
+            },
         }
     }
 
@@ -242,6 +246,7 @@ impl<'a> RatingReport<'a> {
                 sig(self.units.length_from_si(displacement_thickness_m), 3),
                 sig(displacement_thickness_m / s.control_length_m, 3)
             ),
+            LossMethod::Standard(rule) => format!("{}: {}", rule.name(), rule.method()),
         }
     }
 
@@ -250,24 +255,34 @@ impl<'a> RatingReport<'a> {
         let s = self.model.structure();
         let (lu, _) = self.units.symbols();
         let per = self.units.length_from_si(1.0);
-        let kind = match s.kind {
-            StructureKind::Flume => "long-throated flume",
-            StructureKind::Weir => "broad-crested weir",
-        };
-        let mut lines = vec![
-            format!(
+        let kind = s.kind.describe();
+        let mut lines = vec![match s.kind {
+            StructureKind::Flume | StructureKind::Weir | StructureKind::SquareEdgedWeir => format!(
                 "structure: {kind}; control {}; length {} {lu}",
                 s.control.describe(lu, per),
                 sig(self.units.length_from_si(s.control_length_m), 4)
             ),
-            format!(
+            StructureKind::ThinPlateWeir => match s.loss {
+                LossMethod::Standard(crate::rating::StandardRule::VNotch { angle_deg }) => {
+                    format!("structure: {kind}; V-notch, {angle_deg}° between the sides")
+                }
+                LossMethod::Standard(crate::rating::StandardRule::Cipoletti) => format!(
+                    "structure: {kind}; Cipoletti notch (1:4 sides), crest {} {lu} wide",
+                    sig(self.units.length_from_si(s.control.characteristic_width_m()), 4)
+                ),
+                _ => format!("structure: {kind}; control {}", s.control.describe(lu, per)),
+            },
+            _ => format!("structure: {kind}; control {}", s.control.describe(lu, per)),
+        }];
+        if !matches!(s.kind, StructureKind::Parshall) {
+            lines.push(format!(
                 "approach: {}; crest {} {lu} above the approach bed; alpha = {}",
                 s.approach.describe(lu, per),
                 sig(self.units.length_from_si(s.sill_height_m), 4),
                 s.approach_alpha
-            ),
-            format!("method: {}", self.method_line()),
-        ];
+            ));
+        }
+        lines.push(format!("method: {}", self.method_line()));
         if let Some(c) = &s.calibration {
             lines.push(format!("calibration: {}", c.sentence(lu, per)));
         }

@@ -123,6 +123,9 @@ impl Sheet {
         let kind = match station.structure.kind {
             StructureKind::Flume => "flume",
             StructureKind::Weir => "weir",
+            StructureKind::ThinPlateWeir => "thin-plate weir",
+            StructureKind::Parshall => "Parshall flume",
+            StructureKind::SquareEdgedWeir | StructureKind::TriangularProfileWeir => "weir",
         };
         Ok(Sheet {
             name: station.name.clone(),
