@@ -369,9 +369,14 @@ pub fn modular_limit_at(
             )
         }
     };
-    let level = tailwater
-        .and_then(|t| t.level_for_energy_m(p.discharge_m3s, h2_max))
-        .unwrap_or(h2_max);
+    let level = if standard == Some(0.0) && exit.fixed_modular_limit.is_none() {
+        // a thin-plate weir: the tailwater level itself must stay below the crest
+        0.0
+    } else {
+        tailwater
+            .and_then(|t| t.level_for_energy_m(p.discharge_m3s, h2_max))
+            .unwrap_or(h2_max)
+    };
     (h2_max / p.energy_head_m, h2_max, level)
 }
 

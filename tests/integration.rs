@@ -15,6 +15,7 @@ mod integration {
     pub mod references;
     pub mod screening;
     pub mod sheet;
+    pub mod standard;
     pub mod tailwater;
     pub mod uncertainty;
 }

@@ -159,9 +159,25 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         );
     }
 
+    /// The grid's discharge unit and its factor on the output unit: a small structure's grid in
+    /// L/s (SI only), so that its discharges stay short enough to fit.
+    fn grid_unit<'a>(&self, output_unit: &'a str) -> (&'a str, f64) {
+        let largest = self
+            .rows
+            .iter()
+            .flat_map(|r| r.cells.iter().filter_map(|c| c.discharge_m3s))
+            .fold(0.0f64, f64::max);
+        if matches!(self.units, Units::Si) && largest < 0.1 {
+            ("L/s", 1000.0)
+        } else {
+            (output_unit, 1.0)
+        }
+    }
+
     /// The station, how the sheet was made, units and datum.
     fn header_html(&self, h: &mut String) {
         let (lu, qu) = self.units.symbols();
+        let (qu, _) = self.grid_unit(qu);
         h.push_str(&format!("<header>\n<h1>{}</h1>\n", esc(&self.name)));
         for line in &self.structure {
             h.push_str(&format!("<p>{}</p>\n", esc(line)));
@@ -223,6 +239,8 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         }
         let key_of = |id: &str| keys.iter().position(|k| *k == id).map_or(0, |p| p + 1);
 
+        let (qu, q_scale) = self.grid_unit(qu);
+
         // the grid
         h.push_str(&format!(
             "<table class=\"grid\">\n<caption>Discharge Q in {qu} at head h1 = row + column</caption>\n<thead><tr>"
@@ -244,7 +262,7 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
             for cell in &row.cells {
                 match cell.discharge_m3s {
                     Some(q) => {
-                        let shown = super::sig(self.units.discharge_from_si(q), self.figures);
+                        let shown = super::sig(q_scale * self.units.discharge_from_si(q), self.figures);
                         h.push_str(&format!(
                             "<td class=\"{}\" data-head-m=\"{}\" data-q-m3s=\"{}\">{}</td>",
                             if cell.valid { "q" } else { "q bad" },
