@@ -59,5 +59,14 @@ code=0
 echo "   charts: out/ridgeway-gaugings-*.png   calibrated copy: out/ridgeway-calibrated.toml"
 
 echo
-echo "== 8. one cross-section by hand: critical depth and alternate depths"
+echo "== 8. standard structures: the works' V-notch and the lateral's Parshall flume (published ratings)"
+"$bin" structures parshall-1ft
+"$bin" sheet ratings/mill-lane-outfall-vnotch.toml -o out/mill-lane-outfall-vnotch-sheet.html
+"$bin" sheet ratings/kestrel-lateral-parshall.toml -o out/kestrel-lateral-parshall-sheet.html
+code=0
+"$bin" tailwater ratings/kestrel-lateral-parshall.toml --plot out/kestrel-lateral-parshall-tailwater.png || code=$?
+[ "$code" -le 1 ] || exit "$code"   # 1 = the lateral drowns the flume somewhere
+
+echo
+echo "== 9. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4

@@ -62,7 +62,54 @@ pub fn checks() -> Vec<Check> {
     all.extend(rating_checks());
     all.extend(uncertainty_checks());
     all.extend(tailwater_checks());
+    all.extend(standard_checks());
     all
+}
+
+/// The standard structures (docs/references.md S17–S19).
+fn standard_checks() -> Vec<Check> {
+    use crate::rating::standard::{rectangular_plate_m3s, triangular_profile_cd, v_notch_m3s, CFS_M3S, FOOT_M};
+    use crate::rating::ParshallSize;
+    let parshall = |name: &str, ha_ft: f64| {
+        ParshallSize::from_name(name).map_or(f64::NAN, |s| s.discharge_m3s(ha_ft * FOOT_M) / CFS_M3S)
+    };
+    vec![
+        check(
+            "rectangular thin-plate weir, full width b = 2 m, p = 0.4 m, h = 0.3 m (m³/s)",
+            "Kindsvater–Carter, ISO 1438 §9.6; the fluids library's Q_weir_rectangular_full_Kindsvater_Carter: docs/references.md S17",
+            0.641560300081563,
+            rectangular_plate_m3s(0.3, 2.0, 2.0, 0.4).0,
+            1e-9,
+        ),
+        check(
+            "90° V-notch at h = 1 ft (ft³/s)",
+            "USBR Water Measurement Manual ch. 7: Q = 2.49·h^2.48 gives 2.490 ft³/s; Kindsvater–Shen within 0.1 %: docs/references.md S17",
+            2.49,
+            v_notch_m3s(FOOT_M, 90.0).0 / CFS_M3S,
+            1e-3,
+        ),
+        check(
+            "Parshall flume 1 ft at Ha = 1 ft (ft³/s)",
+            "ASTM D1941 / USBR Water Measurement Manual ch. 8: Q = 4·W·Ha^(1.522·W^0.026): docs/references.md S18",
+            4.0,
+            parshall("1ft", 1.0),
+            1e-9,
+        ),
+        check(
+            "Parshall flume 10 ft at Ha = 2 ft (ft³/s)",
+            "ASTM D1941 / USBR Water Measurement Manual ch. 8: Q = (3.6875·W + 2.5)·Ha^1.6: docs/references.md S18",
+            119.3627,
+            parshall("10ft", 2.0),
+            1e-6,
+        ),
+        check(
+            "triangular-profile weir Cd at h = 0.10 m",
+            "ISO 4360 (from memory): Cd = 1.163·(1 − 0.0003/h)^1.5, computed independently: docs/references.md S19",
+            1.15777,
+            triangular_profile_cd(0.10),
+            5e-6,
+        ),
+    ]
 }
 
 /// Critical flow in simple sections (docs/references.md C1, C2).
