@@ -11,11 +11,13 @@ mod integration {
     pub mod hostile;
     pub mod malformed;
     pub mod order;
+    pub mod periods;
     pub mod properties;
     pub mod references;
     pub mod screening;
     pub mod sheet;
     pub mod standard;
+    pub mod tables;
     pub mod tailwater;
     pub mod uncertainty;
 }

@@ -8,7 +8,6 @@ use std::process::ExitCode;
 use anyhow::Context;
 use clap::Args;
 use flumerate::report::check::CheckReport;
-use flumerate::station::Station;
 
 use super::{output::emit, OutputArgs, UnitsArg};
 
@@ -16,6 +15,9 @@ use super::{output::emit, OutputArgs, UnitsArg};
 pub struct CheckArgs {
     /// Station file (TOML)
     pub station: PathBuf,
+    /// Rate the period in force at this time (RFC 3339 with its zone) [default: the latest]
+    #[arg(long, value_name = "TIME")]
+    pub at: Option<String>,
     /// Unit system of the report
     #[arg(long, value_enum, default_value_t)]
     pub units: UnitsArg,
@@ -25,7 +27,7 @@ pub struct CheckArgs {
 
 pub fn run(a: CheckArgs) -> anyhow::Result<ExitCode> {
     super::output::check(&[("station file", &a.station)], &[("-o", a.out.output.as_deref())])?;
-    let station = Station::load(&a.station)?;
+    let station = super::station_at(&a.station, a.at.as_deref())?;
     let report = CheckReport::for_station(&station, a.units.into())
         .with_context(|| format!("{}: the control cannot be rated", a.station.display()))?;
     emit(report.text.as_bytes(), a.out.output.as_deref())?;

@@ -111,6 +111,21 @@ pub struct OutputArgs {
     pub output: Option<PathBuf>,
 }
 
+/// The station file at `path`, in the rating period in force at `at` (RFC 3339 with its zone;
+/// default: the latest period).
+pub fn station_at(path: &std::path::Path, at: Option<&str>) -> anyhow::Result<flumerate::station::Station> {
+    let station = flumerate::station::Station::load(path)?;
+    let Some(at) = at else {
+        return Ok(station);
+    };
+    let t = chrono::DateTime::parse_from_rfc3339(at.trim()).map_err(|e| {
+        anyhow::anyhow!(
+            "--at \"{at}\" is not a time with its zone ({e})\n  fix: write it as RFC 3339, e.g. --at 2025-06-01T12:00:00+01:00 or --at 2025-06-01T11:00:00Z"
+        )
+    })?;
+    Ok(station.at(t.timestamp_millis()).clone())
+}
+
 /// A number given on the command line: finite (not `nan` or `inf`). Clap names the option in
 /// the error.
 pub fn finite_number(s: &str) -> Result<f64, String> {

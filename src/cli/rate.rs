@@ -39,6 +39,9 @@ pub enum TableFormat {
 pub struct RateArgs {
     /// Station file (TOML)
     pub station: PathBuf,
+    /// Rate the period in force at this time (RFC 3339 with its zone) [default: the latest]
+    #[arg(long, value_name = "TIME")]
+    pub at: Option<String>,
     #[command(flatten)]
     pub heads: super::HeadArgs,
     /// Unit system of heads and discharges
@@ -65,6 +68,17 @@ pub struct RateArgs {
     /// Also give each input's share of the variance at every head
     #[arg(long)]
     pub budget: bool,
+    /// Instead of the table: the best N-breakpoint head→discharge table for linear interpolation
+    /// (a logger's or control system's table), with its largest error
+    #[arg(long, value_name = "N", conflicts_with_all = ["max_error", "segments"])]
+    pub breakpoints: Option<usize>,
+    /// Instead of the table: the fewest breakpoints whose linear interpolation stays within PCT %
+    #[arg(long, value_name = "PCT", value_parser = super::finite_number, conflicts_with = "segments")]
+    pub max_error: Option<f64>,
+    /// Instead of the table: a piecewise power-law equation of N segments, each with its largest
+    /// deviation (text)
+    #[arg(long, value_name = "N")]
+    pub segments: Option<usize>,
     /// Also draw the rating curve with its 95 % band to FILE.png or FILE.svg
     #[arg(long, value_name = "FILE")]
     pub plot: Option<std::path::PathBuf>,
@@ -86,8 +100,11 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
         &[("-o", a.out.output.as_deref()), ("--plot", a.plot.as_deref())],
     )?;
     let plot_format = super::output::plot_format(a.plot.as_deref())?;
-    let station = Station::load(&a.station)?;
+    let station = super::station_at(&a.station, a.at.as_deref())?;
     let units: Units = a.units.into();
+    if a.breakpoints.is_some() || a.max_error.is_some() || a.segments.is_some() {
+        return short_table(&a, &station, units);
+    }
     let options = RateOptions {
         heads_m: a.heads.heads_m(&station.range, units)?,
         monte_carlo: (a.uncertainty == UncertaintyMethod::Mc).then(|| McOptions {
@@ -118,4 +135,43 @@ pub fn run(a: RateArgs) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
+}
+
+/// `--breakpoints`, `--max-error`, `--segments`: the short table or the piecewise equation over
+/// the station's range (or `--from`/`--to`).
+fn short_table(a: &RateArgs, station: &Station, units: Units) -> anyhow::Result<ExitCode> {
+    use flumerate::report::breakpoints::{segments_text, ShortTable};
+    let model = RatingModel::new(station.structure.clone())
+        .with_context(|| format!("{}: the control cannot be rated", a.station.display()))?;
+    let heads = a.heads.heads_m(&station.range, units)?;
+    let (lo, hi) = (heads[0], heads[heads.len() - 1]);
+    if let Some(pct) = a.max_error {
+        anyhow::ensure!(
+            pct > 0.0 && pct <= 50.0,
+            "--max-error {pct} is out of range\n  fix: give the largest interpolation error in per cent, e.g. --max-error 0.5"
+        );
+    }
+    let bytes = match a.segments {
+        Some(n) => {
+            anyhow::ensure!((1..=50).contains(&n), "--segments {n}: give 1 to 50 segments");
+            segments_text(&model, &station.name, lo, hi, n, units)
+        }
+        None => {
+            let n = a.breakpoints.unwrap_or(0);
+            anyhow::ensure!(
+                a.max_error.is_some() || (2..=10_000).contains(&n),
+                "--breakpoints {n}: give 2 to 10000 breakpoints"
+            );
+            let table = ShortTable::build(&model, lo, hi, a.max_error, n)
+                .with_context(|| format!("{}: short table", a.station.display()))?;
+            let format = match a.format {
+                TableFormat::Text => "text",
+                TableFormat::Csv => "csv",
+                TableFormat::Json => "json",
+            };
+            table.render(&station.name, units, format)
+        }
+    };
+    emit_all(vec![(a.out.output.as_deref(), &bytes[..])])?;
+    Ok(ExitCode::SUCCESS)
 }

@@ -8,7 +8,6 @@ use std::process::ExitCode;
 use anyhow::bail;
 use clap::{Args, ValueEnum};
 use flumerate::report::sheet::{Paper, Sheet, SheetOptions};
-use flumerate::station::Station;
 
 use super::output::emit;
 use super::UnitsArg;
@@ -26,6 +25,9 @@ pub enum PaperArg {
 pub struct SheetArgs {
     /// Station file (TOML)
     pub station: PathBuf,
+    /// Rate the period in force at this time (RFC 3339 with its zone) [default: the latest]
+    #[arg(long, value_name = "TIME")]
+    pub at: Option<String>,
     /// The sheet: FILE.html
     #[arg(short = 'o', long = "output", value_name = "FILE")]
     pub output: PathBuf,
@@ -49,7 +51,7 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
     if a.output.extension().and_then(|e| e.to_str()) != Some("html") {
         bail!("-o {}: the sheet is an .html file", a.output.display());
     }
-    let station = Station::load(&a.station)?;
+    let station = super::station_at(&a.station, a.at.as_deref())?;
     let options = SheetOptions {
         units: a.units.into(),
         step: a.step,

@@ -2,6 +2,7 @@
 //! application ([`limits`]), rating tables ([`table`]), the fitted rating equation ([`fit`]) and
 //! the calibration against field gaugings ([`calibration`]).
 
+pub mod breakpoints;
 pub mod calibration;
 pub mod equation;
 pub mod fit;

@@ -69,7 +69,10 @@ impl CheckReport {
 fn header(station: &Station, model: &RatingModel, units: Units, n: usize) -> String {
     let mut s = format!("station file OK: {} ({})\n", station.source, station.name);
     let table = RatingTable { rows: Vec::new() };
-    for line in RatingReport::new(&station.name, &station.source, model, &table, None, units).structure_lines() {
+    for line in RatingReport::new(&station.name, &station.source, model, &table, None, units)
+        .with_period(station.period.line.as_deref())
+        .structure_lines()
+    {
         let _ = writeln!(s, "{line}");
     }
     let show = |m: f64| format!("{} {}", sig(units.length_from_si(m), 4), units.symbols().0);

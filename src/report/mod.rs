@@ -1,5 +1,6 @@
 //! Writers: each turns a computed result into bytes; the caller picks the destination.
 
+pub mod breakpoints;
 pub mod check;
 pub mod gaugings;
 pub mod hydrograph;

@@ -270,6 +270,20 @@ pub struct Conversion<'a> {
     pub input_rows: usize,
     /// Value-column index of a logged water temperature (°C), written beside each row.
     pub temperature_column: Option<usize>,
+    /// The station's earlier rating periods, oldest first: rows before `until_ms` (UTC ms) of
+    /// the first period not yet ended are converted with its rating (empty for one period).
+    pub earlier: Vec<EarlierPeriod<'a>>,
+}
+
+/// An earlier rating period of the station, as the conversion applies it.
+#[derive(Debug, Clone)]
+pub struct EarlierPeriod<'a> {
+    /// The period ends (the next one starts) at this instant (UTC ms).
+    pub until_ms: i64,
+    /// The conversion with this period's rating (its own `earlier` is empty).
+    pub conv: Conversion<'a>,
+    /// Its input uncertainties, for the band.
+    pub inputs: &'a Inputs,
 }
 
 /// The converted rows of one output chunk (columns).
@@ -750,6 +764,55 @@ impl Conversion<'_> {
                 None
             }
         }
+    }
+
+    /// [`Self::convert_rows`] with each row converted by the rating period in force at its
+    /// instant: runs of rows of one period are converted together and joined in order (rows with
+    /// no time take the latest period; they have no discharge anyway).
+    #[allow(clippy::too_many_arguments)]
+    pub fn convert_rows_in_force(
+        &self,
+        order: &[usize],
+        utc: &[i64],
+        days: &[i32],
+        values: &[Vec<f64>],
+        lines: &[u32],
+        inputs: &Inputs,
+        counts: &mut Counts,
+        summaries: &mut Summaries,
+    ) -> Chunk {
+        if self.earlier.is_empty() {
+            return self.convert_rows(order, utc, days, values, lines, inputs, counts, summaries);
+        }
+        let period = |i: usize| {
+            let t = utc[i];
+            if t == NO_TIME {
+                return self.earlier.len();
+            }
+            self.earlier
+                .iter()
+                .position(|p| t < p.until_ms)
+                .unwrap_or(self.earlier.len())
+        };
+        let mut out = Chunk::default();
+        let mut start = 0;
+        while start < order.len() {
+            let k = period(order[start]);
+            let mut end = start + 1;
+            while end < order.len() && period(order[end]) == k {
+                end += 1;
+            }
+            let run = &order[start..end];
+            let chunk = match self.earlier.get(k) {
+                Some(p) => p
+                    .conv
+                    .convert_rows(run, utc, days, values, lines, p.inputs, counts, summaries),
+                None => self.convert_rows(run, utc, days, values, lines, inputs, counts, summaries),
+            };
+            out.append(chunk);
+            start = end;
+        }
+        out
     }
 
     /// Converts rows `order` (indices into the arrays) into a chunk, updating counts and

@@ -7,6 +7,7 @@
 mod calibration;
 mod control;
 mod logger;
+mod period;
 mod raw;
 mod screening;
 mod shape;
@@ -17,6 +18,7 @@ mod tailwater;
 use std::ops::Range;
 use std::path::Path;
 
+pub use period::PeriodInfo;
 use raw::{Num, RawStation};
 use toml::Spanned;
 
@@ -292,6 +294,11 @@ pub struct Station {
     pub logger: Option<LoggerSpec>,
     /// Screening thresholds and the gap-fill limit (`[screening]`, defaults without one).
     pub screening: crate::series::screen::ScreeningSpec,
+    /// Which rating period this is (empty for a file without rating keys).
+    pub period: PeriodInfo,
+    /// The earlier periods of the file, oldest first (empty for a single-period file); this
+    /// station is the latest.
+    pub history: Vec<Station>,
 }
 
 impl Station {
@@ -331,7 +338,7 @@ impl Station {
             let key = ctx.key_at(span.start).unwrap_or_else(|| "TOML".to_string());
             ctx.err(span, &key, msg.trim_end(), fix)
         })?;
-        ctx.build(raw)
+        ctx.build_periods(raw)
     }
 }
 
@@ -468,6 +475,8 @@ impl Ctx<'_> {
             uncertainty,
             logger,
             screening,
+            period: PeriodInfo::default(),
+            history: Vec::new(),
         })
     }
 

@@ -154,6 +154,10 @@ fn square_edged_weir_follows_iso_3846_with_the_approach_velocity_solved() {
     for (h, q) in [(0.15, 0.0850009), (0.30, 0.2449750), (0.45, 0.4580663)] {
         assert!(rel(q_at(&s, h), q) < 1e-6, "h = {h}");
     }
+    // the same by fixed-point iteration of Cv = (H/h)^1.5, computed in Python for this test
+    for (h, q) in [(0.2, 0.1316783321320215), (0.35, 0.31059655432957595)] {
+        assert!(rel(q_at(&s, h), q) < 1e-9, "h = {h}");
+    }
     // b = 1, p = 0.3, h = 0.2, B = 1: Q = 0.132815 m³/s with g = 9.81 (independent computation,
     // docs/references.md S19); Q scales with √g at a fixed Cv
     let s = station_file(

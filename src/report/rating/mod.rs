@@ -45,6 +45,8 @@ pub struct RatingReport<'a> {
     pub modular: Option<&'a [(f64, f64)]>,
     /// The station's rating equation ([`crate::rating::RatingEquation`]), if it could be fitted.
     pub equation: Option<&'a RatingEquation>,
+    /// The rating period in force, in words ([`crate::station::PeriodInfo::sentence`]).
+    pub period: Option<&'a str>,
 }
 
 /// One output cell.
@@ -73,7 +75,14 @@ impl<'a> RatingReport<'a> {
             uncertainty: None,
             modular: None,
             equation,
+            period: None,
         }
+    }
+
+    /// The same report naming the station's rating period.
+    pub fn with_period(mut self, period: Option<&'a str>) -> Self {
+        self.period = period;
+        self
     }
 
     /// Column names, unit suffixes per design.md.
@@ -283,6 +292,9 @@ impl<'a> RatingReport<'a> {
             ));
         }
         lines.push(format!("method: {}", self.method_line()));
+        if let Some(p) = &self.period {
+            lines.push(format!("rating period: {p}"));
+        }
         if let Some(c) = &s.calibration {
             lines.push(format!("calibration: {}", c.sentence(lu, per)));
         }

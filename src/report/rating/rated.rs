@@ -112,6 +112,7 @@ impl Rated {
                 self.equation.as_ref(),
                 units,
             )
+            .with_period(station.period.line.as_deref())
         }
     }
 }

@@ -114,7 +114,8 @@ impl Sheet {
             &table,
             equation.as_ref(),
             o.units,
-        );
+        )
+        .with_period(station.period.line.as_deref());
         // the curve is the rating report's chart, without the title and caption the sheet prints
         let mut chart = report.chart();
         chart.title.clear();

@@ -20,6 +20,8 @@
 pub mod report;
 pub mod stages;
 
+use crate::series::convert::EarlierPeriod;
+use crate::station::HeadRange;
 use std::path::{Path, PathBuf};
 
 use super::convert::{Chunk, Conversion, Counts, Flag, PeriodRow};
@@ -289,7 +291,47 @@ impl<'a> Pipeline<'a> {
             screened: Default::default(),
             input_rows: timeline.rows(),
             temperature_column: s.temperature_index,
+            earlier: Vec::new(),
         }
+    }
+
+    /// Stage 3b: the rating of each earlier period of the station, with the instant it ends.
+    fn earlier_ratings(&self) -> Result<Vec<(i64, stages::RatingStage, HeadRange)>, PipelineError> {
+        let h = &self.station.history;
+        h.iter()
+            .enumerate()
+            .map(|(k, st)| {
+                let next = h.get(k + 1).unwrap_or(self.station);
+                let until = next.period.valid_from_ms.unwrap_or(i64::MIN);
+                let model = RatingModel::new(st.structure.clone())?;
+                Ok((until, stages::rating(st, &model)?, st.range))
+            })
+            .collect()
+    }
+
+    /// The conversion of each earlier period: `conv` (corrections, screening and edits done)
+    /// with that period's rating, range, limits and tailwater.
+    fn earlier_conversions<'s>(
+        conv: &Conversion<'s>,
+        earlier: &'s [(i64, stages::RatingStage, HeadRange)],
+    ) -> Vec<EarlierPeriod<'s>> {
+        earlier
+            .iter()
+            .map(|(until, r, range)| {
+                let mut c = conv.clone();
+                c.gum = &r.gum;
+                c.table = &r.table;
+                c.range = *range;
+                c.invalid_bands = r.invalid_bands.clone();
+                c.exponent = r.exponent;
+                c.tailwater = r.tailwater.as_ref();
+                EarlierPeriod {
+                    until_ms: *until,
+                    conv: c,
+                    inputs: &r.inputs,
+                }
+            })
+            .collect()
     }
 
     /// Stage 4: the stage source, the edits and the drift correction, with what they found.
@@ -352,10 +394,12 @@ impl<'a> Pipeline<'a> {
         })?;
         timer.mark("times");
         let rating = stages::rating(self.station, &self.model)?;
+        let earlier = self.earlier_ratings()?;
         timer.mark("rating");
         let (mut conv, corrections) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
         timer.mark("corrections");
         self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
+        conv.earlier = Self::earlier_conversions(&conv, &earlier);
         timer.mark("screening, edits, fills");
         let mut outputs = OutputSet::new();
         let mut converted = self.write_series(&conv, &times, &raw, &rating, out, formats.0, &mut outputs, progress)?;
@@ -522,8 +566,10 @@ impl<'a> Pipeline<'a> {
             source,
         })?;
         let rating = stages::rating(self.station, &self.model)?;
+        let earlier = self.earlier_ratings()?;
         let (mut conv, _) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
         self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
+        conv.earlier = Self::earlier_conversions(&conv, &earlier);
         let order = stages::write_order(&times, &raw, &conv, false);
         let mut rows = Chunk::default();
         let mut converted = stages::convert_all(

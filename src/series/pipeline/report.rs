@@ -135,6 +135,14 @@ impl Facts<'_> {
         json!({
             "flumerate_version": env!("CARGO_PKG_VERSION"),
             "station": { "path": self.paths.station, "sha256": self.station.sha256, "name": self.station.name },
+            "rating_periods": self.station.periods().map(|p| json!({
+                "rating_id": p.period.rating_id,
+                "valid_from": p.period.valid_from,
+                "status": p.period.status,
+                "approved_by": p.period.approved_by,
+                "approved_on": p.period.approved_on,
+                "applied_to": "rows at or after valid_from and before the next period's (the latest: to the end)",
+            })).collect::<Vec<_>>(),
             "logger": { "path": self.paths.logger, "sha256": self.raw.sha256, "bytes": self.logger_bytes },
             "settings": self.settings_json(),
             "corrections": self.corrections_json(),

@@ -318,7 +318,7 @@ fn convert_part(
     mut buckets: HydroBuckets,
 ) -> (Chunk, Counts, Summaries, HydroBuckets) {
     let (mut c, mut sm) = (Counts::default(), Summaries::default());
-    let chunk = conv.convert_rows(
+    let chunk = conv.convert_rows_in_force(
         part,
         &times.utc,
         &times.days,
@@ -509,6 +509,7 @@ mod tests {
             screened: Default::default(),
             input_rows: 8,
             temperature_column: None,
+            earlier: Vec::new(),
         };
         let dir = tempfile::tempdir().expect("tempdir");
         let visits = dir.path().join("v.csv");
