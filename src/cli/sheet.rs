@@ -44,6 +44,20 @@ pub struct SheetArgs {
     /// The "generated" time printed on the sheet [default: now, UTC]
     #[arg(long)]
     pub date: Option<String>,
+    /// Tabulate by head above the crest, or by staff-gauge reading (the station's [staff]
+    /// crest_reading added to every head)
+    #[arg(long, value_enum, default_value_t)]
+    pub by: ByArg,
+}
+
+/// What the sheet's rows are read by.
+#[derive(Debug, Clone, Copy, clap::ValueEnum, Default)]
+pub enum ByArg {
+    /// head above the crest
+    #[default]
+    Head,
+    /// staff-gauge reading
+    Staff,
 }
 
 pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
@@ -63,6 +77,7 @@ pub fn run(a: SheetArgs) -> anyhow::Result<ExitCode> {
             .date
             .clone()
             .unwrap_or_else(|| chrono::Utc::now().format("%Y-%m-%d %H:%M UTC").to_string()),
+        by_staff: matches!(a.by, ByArg::Staff),
     };
     let sheet = Sheet::for_station(&station, &options)?;
     emit(sheet.to_html().as_bytes(), Some(&a.output))?;

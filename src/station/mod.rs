@@ -294,6 +294,8 @@ pub struct Station {
     pub logger: Option<LoggerSpec>,
     /// Screening thresholds and the gap-fill limit (`[screening]`, defaults without one).
     pub screening: crate::series::screen::ScreeningSpec,
+    /// The staff gauge (reads 0 at crest level unless `[staff]` says otherwise).
+    pub staff: StaffGauge,
     /// Which rating period this is (empty for a file without rating keys).
     pub period: PeriodInfo,
     /// The earlier periods of the file, oldest first (empty for a single-period file); this
@@ -339,6 +341,50 @@ impl Station {
             ctx.err(span, &key, msg.trim_end(), fix)
         })?;
         ctx.build_periods(raw)
+    }
+}
+
+/// The staff gauge at the structure.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct StaffGauge {
+    /// The staff reading with the water level at the crest (m): head = staff reading − this.
+    pub crest_reading_m: f64,
+    /// Where the staff's zero lies (free text), if given.
+    pub datum: Option<String>,
+}
+
+impl Ctx<'_> {
+    /// `[staff]`: optional; the staff reads 0 at crest level without it.
+    fn staff(&self, raw: &RawStation, unit: LengthUnit) -> Result<StaffGauge, StationError> {
+        let Some(t) = &raw.staff else {
+            return Ok(StaffGauge::default());
+        };
+        let s = t.get_ref();
+        let crest_reading_m = match &s.crest_reading {
+            Some(n) => {
+                let v = self.number(n, "staff.crest_reading")? * unit.metres();
+                if v.abs() > MAX_LENGTH_M {
+                    return Err(self.err(
+                        n.span(),
+                        "staff.crest_reading",
+                        "longer than any staff gauge",
+                        "give the staff reading with the water level at the crest, in the file's length_unit",
+                    ));
+                }
+                v
+            }
+            None => {
+                return Err(self.missing(
+                    t.span(),
+                    "staff.crest_reading",
+                    "add crest_reading = the staff reading with the water level at the crest (head = staff reading − crest_reading)",
+                ))
+            }
+        };
+        Ok(StaffGauge {
+            crest_reading_m,
+            datum: s.datum.as_ref().map(|d| escape_controls(d.get_ref().trim())),
+        })
     }
 }
 
@@ -475,6 +521,7 @@ impl Ctx<'_> {
             uncertainty,
             logger,
             screening,
+            staff: self.staff(&raw, unit)?,
             period: PeriodInfo::default(),
             history: Vec::new(),
         })

@@ -42,6 +42,15 @@ pub struct RawStation {
     pub approved_by: Option<Text>,
     pub approved_on: Option<Text>,
     pub period: Option<Vec<Spanned<RawPeriod>>>,
+    pub staff: Option<Spanned<RawStaff>>,
+}
+
+/// `[staff]`: the staff gauge, where it does not read zero at crest level.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawStaff {
+    pub crest_reading: Option<Num>,
+    pub datum: Option<Text>,
 }
 
 /// `[[period]]`: a later rating period, with only the tables and keys that change.

@@ -274,3 +274,40 @@ fn the_sheet_says_in_words_what_its_shading_means() {
     assert!(html.contains("text-decoration: line-through"));
     assert!(html.contains("<b>Limits:</b> <b>1</b> H1/L&lt;=0.7"));
 }
+
+#[test]
+fn a_sheet_by_staff_reading_rates_the_head_below_each_reading() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let text = std::fs::read_to_string("ratings/ridgeway-canal-flume.toml")
+        .expect("demo")
+        .replacen("[control]", "[staff]\ncrest_reading = 0.150\n\n[control]", 1);
+    let station = crate::common::station_file(dir.path(), "staff.toml", &text);
+    let out = dir.path().join("staff.html");
+    flumerate()
+        .arg("sheet")
+        .arg(&station)
+        .args(["--by", "staff", "--date", "2026-12-02", "-o"])
+        .arg(&out)
+        .assert()
+        .success();
+    let html = std::fs::read_to_string(&out).expect("sheet");
+    assert!(html.contains("staff reading = row + column (head h1 = staff reading − 0.1500 m)"));
+    assert!(html.contains("<th>staff cm</th>"));
+    assert!(html.contains("the staff gauge reads 0.1500 m at crest level"));
+    let model = RatingModel::new(Station::load(&station).expect("station").structure).expect("model");
+    // every row: its label (staff cm) plus the column (mm) less 0.150 m is the cell's head
+    for row in html.split("<tr class=\"").skip(1) {
+        let label: f64 = row[row.find("<th>").expect("label") + 4..row.find("</th>").expect("end")]
+            .parse()
+            .expect("staff cm");
+        for (h, q, _) in cells(row) {
+            let (h, q) = (&h, &q);
+            assert!(
+                *h > label / 100.0 - 0.150 - 1e-9 && *h < label / 100.0 - 0.150 + 0.02,
+                "{label}: {h}"
+            );
+            assert!(rel(*q, model.discharge_m3s(*h).expect("rated")) < 1e-12);
+        }
+    }
+    assert!(cells(&html).len() >= 40);
+}

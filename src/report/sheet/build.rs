@@ -27,6 +27,9 @@ pub struct SheetOptions {
     pub paper: Paper,
     /// The "generated" time printed on the sheet.
     pub generated: String,
+    /// Tabulate by staff reading (the station's `[staff] crest_reading` added to every head)
+    /// instead of by head above the crest.
+    pub by_staff: bool,
 }
 
 /// Why a sheet cannot be made.
@@ -55,13 +58,16 @@ struct Layout {
     coarse: f64,
     first: i64,
     last: i64,
+    /// What a row's reading adds to the head (m): the staff reading at crest level, or 0.
+    shift_m: f64,
 }
 
 impl Layout {
     fn new(station: &Station, o: &SheetOptions) -> Result<Self, SheetError> {
+        let shift_m = if o.by_staff { station.staff.crest_reading_m } else { 0.0 };
         let (lo_u, hi_u) = (
-            o.units.length_from_si(station.range.min_head_m),
-            o.units.length_from_si(station.range.max_head_m),
+            o.units.length_from_si(station.range.min_head_m + shift_m),
+            o.units.length_from_si(station.range.max_head_m + shift_m),
         );
         let candidates: &[f64] = match o.units {
             Units::Si => &[0.01, 0.02, 0.05, 0.1, 0.2, 0.5],
@@ -92,6 +98,7 @@ impl Layout {
             coarse,
             first: (lo_u / coarse + 1e-9).floor() as i64 * 10,
             last: (hi_u / coarse + 1e-9).floor() as i64 * 10 + 9,
+            shift_m,
         })
     }
 
@@ -139,9 +146,12 @@ impl Sheet {
                 .into_iter()
                 .map(|l| l.replace("structure:", &format!("{kind}:")))
                 .collect(),
-            zero: zero_line(station),
+            zero: zero_line(station, o.units),
             units: o.units,
             paper: o.paper,
+            by_staff: o
+                .by_staff
+                .then(|| o.units.length_from_si(station.staff.crest_reading_m)),
             row_unit: match o.units {
                 Units::Si => "cm".into(),
                 Units::Us => "ft".into(),
@@ -167,7 +177,7 @@ fn grid(station: &Station, model: &RatingModel, layout: &Layout, units: Units) -
     let fine = layout.fine();
     let per_unit = units.length_to_si(1.0);
     let heads: Vec<f64> = (layout.first..=layout.last)
-        .map(|k| k as f64 * fine * per_unit)
+        .map(|k| k as f64 * fine * per_unit - layout.shift_m)
         .collect();
     let eps = 1e-9;
     let in_range = |h: f64| h >= station.range.min_head_m * (1.0 - eps) && h <= station.range.max_head_m * (1.0 + eps);
@@ -250,17 +260,27 @@ fn uncertainty(station: &Station, model: &RatingModel, units: Units) -> Result<V
 }
 
 /// Where the gauges read zero.
-fn zero_line(station: &Station) -> String {
+fn zero_line(station: &Station, units: Units) -> String {
+    let (lu, _) = units.symbols();
+    let staff = format!(
+        "Gauge zero: the staff gauge reads {} {lu} at crest level{}",
+        sig(units.length_from_si(station.staff.crest_reading_m), 4),
+        station
+            .staff
+            .datum
+            .as_ref()
+            .map_or(String::new(), |d| format!(" (staff zero: {d})"))
+    );
     match station
         .logger
         .as_ref()
         .and_then(|l| l.zero.map(|z| (z, l.stage_unit.clone())))
     {
         Some((z, u)) => format!(
-            "Gauge zero: the staff gauge reads 0 at crest level; the logger reads {z} {} there.",
+            "{staff}; the logger reads {z} {} there.",
             u.unwrap_or_else(|| "m".into())
         ),
-        None => "Gauge zero: the staff gauge reads 0 at crest level.".into(),
+        None => format!("{staff}."),
     }
 }
 
@@ -268,6 +288,7 @@ fn zero_line(station: &Station) -> String {
 fn limit_texts(units: Units) -> Vec<(String, String)> {
     LIMITS
         .iter()
+        .chain(crate::rating::limits::STANDARD_LIMITS)
         .map(|l| {
             let rule = match units {
                 Units::Si => l.rule.to_string(),

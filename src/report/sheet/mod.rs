@@ -73,6 +73,9 @@ pub struct Sheet {
     pub paper: Paper,
     /// Unit of the row labels (`cm`, `ft`).
     pub row_unit: String,
+    /// Tabulated by staff reading: the staff reading at crest level, in the output length unit
+    /// (`None`: by head above the crest).
+    pub by_staff: Option<f64>,
     /// Column headings (fine steps).
     pub columns: Vec<String>,
     /// Grid rows.
@@ -243,9 +246,17 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
 
         // the grid
         h.push_str(&format!(
-            "<table class=\"grid\">\n<caption>Discharge Q in {qu} at head h1 = row + column</caption>\n<thead><tr>"
+            "<table class=\"grid\">\n<caption>Discharge Q in {qu} at {}</caption>\n<thead><tr>",
+            match self.by_staff {
+                Some(z) => format!(
+                    "staff reading = row + column (head h1 = staff reading − {} {lu})",
+                    super::sig(z, 4)
+                ),
+                None => "head h1 = row + column".into(),
+            }
         ));
-        h.push_str(&format!("<th>h1 {}</th>", esc(&self.row_unit)));
+        let row_head = if self.by_staff.is_some() { "staff" } else { "h1" };
+        h.push_str(&format!("<th>{row_head} {}</th>", esc(&self.row_unit)));
         for c in &self.columns {
             h.push_str(&format!("<th>{}</th>", esc(c)));
         }
