@@ -68,6 +68,7 @@ pub mod files;
 pub mod gaugings;
 pub mod hydraulics;
 pub mod interp;
+pub mod network;
 pub mod rating;
 pub mod report;
 pub mod series;

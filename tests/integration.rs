@@ -10,6 +10,7 @@ mod integration {
     pub mod gaugings;
     pub mod hostile;
     pub mod malformed;
+    pub mod network;
     pub mod order;
     pub mod periods;
     pub mod properties;

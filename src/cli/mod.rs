@@ -4,6 +4,7 @@
 mod check;
 mod convert;
 mod gaugings;
+mod network;
 mod output;
 mod rate;
 mod section;
@@ -51,6 +52,8 @@ enum Command {
     Verify(verify::VerifyArgs),
     /// The structure families and standard sizes, with their sources; one in detail
     Structures(structures::StructuresArgs),
+    /// Convert every station of a network file at once: one dataset, one summary, one overview
+    Network(network::NetworkArgs),
 }
 
 /// Output unit system.
@@ -150,6 +153,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Sheet(a) => sheet::run(a),
         Command::Gaugings(a) => gaugings::run(a),
         Command::Structures(a) => structures::run(a),
+        Command::Network(a) => network::run(a),
         Command::Verify(a) => verify::run(a),
     }
 }
