@@ -68,5 +68,12 @@ code=0
 [ "$code" -le 1 ] || exit "$code"   # 1 = the lateral drowns the flume somewhere
 
 echo
-echo "== 9. one cross-section by hand: critical depth and alternate depths"
+echo "== 9. the whole network at once (exit 1: the Kestrel lateral's export is broken on purpose)"
+code=0
+"$bin" network examples/network/harrow-vale.toml -o out/network || code=$?
+[ "$code" -le 1 ] || exit "$code"
+echo "   dataset: out/network/series/   summary: out/network/daily.csv   overview: out/network/overview.html"
+
+echo
+echo "== 10. one cross-section by hand: critical depth and alternate depths"
 "$bin" section --shape trapezoid --width 0.3 --side-slope 1 --discharge 0.1 --energy 0.4

@@ -18,7 +18,7 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 
 use crate::series::convert::{Flag, PeriodRow};
-use crate::series::pipeline::{ConversionReport, ConvertOptions, NoProgress, OutputPaths, Pipeline};
+use crate::series::pipeline::{ConversionReport, ConvertOptions, NoProgress, OutputPaths, Pipeline, RatingCache};
 use crate::series::settings::LoggerOverrides;
 use crate::station::Station;
 
@@ -165,7 +165,11 @@ pub fn station_paths(out_dir: &Path, id: &str) -> OutputPaths {
 }
 
 /// Converts one station into its part of the dataset.
-fn convert_one(s: &NetworkStation, out_dir: &Path) -> (String, Result<ConversionReport, String>) {
+fn convert_one(
+    s: &NetworkStation,
+    out_dir: &Path,
+    ratings: &RatingCache,
+) -> (String, Result<ConversionReport, String>) {
     let station = match Station::load(&s.station) {
         Ok(st) => st,
         Err(e) => return (s.id.clone(), Err(e.to_string())),
@@ -175,7 +179,9 @@ fn convert_one(s: &NetworkStation, out_dir: &Path) -> (String, Result<Conversion
         let mut options = ConvertOptions::new(&station, &LoggerOverrides::default(), s.visits.clone(), s.baro.clone())
             .map_err(|e| e.to_string())?;
         options.edits = s.edits.clone();
-        let pipeline = Pipeline::new(&station, options).map_err(|e| e.to_string())?;
+        let pipeline = Pipeline::new(&station, options)
+            .map_err(|e| e.to_string())?
+            .with_ratings(ratings);
         let paths = station_paths(out_dir, &s.id);
         let dir = paths.series.parent().unwrap_or(out_dir).to_path_buf();
         let created = !dir.exists();
@@ -190,31 +196,51 @@ fn convert_one(s: &NetworkStation, out_dir: &Path) -> (String, Result<Conversion
     (name, run())
 }
 
-/// Converts every station on `threads` worker threads (stations in parallel; each conversion
-/// also splits its rows over the cores), calling `done` as each finishes. A station that fails
-/// is reported in its [`Outcome`]; the others carry on.
+/// Converts every station on `threads` worker threads, each taking the next station from a
+/// shared queue as it finishes one (so at most `threads` stations are in memory at once; each
+/// conversion also splits its rows over the cores), calling `done` as each finishes. A station
+/// that fails is reported in its [`Outcome`]; the others carry on. Results are in file order.
+///
+/// Plain scoped threads rather than a work-stealing pool: a pool's worker that waits on the
+/// conversion's own parallel reader would start further stations meanwhile, holding them all in
+/// memory at once.
 pub fn convert_all(net: &Network, out_dir: &Path, threads: usize, done: &(dyn Fn(&Outcome) + Sync)) -> Vec<Outcome> {
-    use rayon::prelude::*;
-    let pool = rayon::ThreadPoolBuilder::new().num_threads(threads.max(1)).build();
-    let work = || {
-        net.stations
-            .par_iter()
-            .map(|s| {
-                let (name, result) = convert_one(s, out_dir);
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    use std::sync::Mutex;
+    let next = AtomicUsize::new(0);
+    let ratings = RatingCache::default();
+    let results: Mutex<Vec<Option<Outcome>>> = Mutex::new(vec![None; net.stations.len()]);
+    std::thread::scope(|scope| {
+        for _ in 0..threads.clamp(1, net.stations.len().max(1)) {
+            scope.spawn(|| loop {
+                let k = next.fetch_add(1, Ordering::Relaxed);
+                let Some(s) = net.stations.get(k) else { break };
+                let (name, result) = convert_one(s, out_dir, &ratings);
                 let o = Outcome {
                     id: s.id.clone(),
                     name,
                     result,
                 };
                 done(&o);
-                o
+                if let Ok(mut r) = results.lock() {
+                    r[k] = Some(o);
+                }
+            });
+        }
+    });
+    results
+        .into_inner()
+        .unwrap_or_default()
+        .into_iter()
+        .zip(&net.stations)
+        .map(|(o, s)| {
+            o.unwrap_or_else(|| Outcome {
+                id: s.id.clone(),
+                name: s.id.clone(),
+                result: Err("the conversion stopped unexpectedly".into()),
             })
-            .collect::<Vec<_>>()
-    };
-    match pool {
-        Ok(p) => p.install(work),
-        Err(_) => work(),
-    }
+        })
+        .collect()
 }
 
 /// The summary table: one row per station and day, with the daily summary's columns.

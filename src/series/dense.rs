@@ -55,8 +55,8 @@ impl DenseRating {
             if h <= 0.0 {
                 return Ok([0.0, 0.0, 0.0, 0.0, 0.0, f64::NAN]);
             }
-            let g = gum.point(h)?;
             let p = model.point(h)?;
+            let g = gum.point_with_discharge(h, p.discharge_m3s)?;
             let (ml, _, _) = modular_limit_at(model, exit, tailwater, &p);
             Ok([
                 g.discharge_m3s,

@@ -96,6 +96,12 @@ impl GumModel {
     /// Sensitivities and combined uncertainty at one gauged head (m).
     pub fn point(&self, head_m: f64) -> Result<GumPoint, RatingError> {
         let q = self.base.discharge_m3s(head_m)?;
+        self.point_with_discharge(head_m, q)
+    }
+
+    /// [`Self::point`] where the model's discharge `q` at `head_m` is already known (the same
+    /// value [`RatingModel::discharge_m3s`] gives): one solve fewer.
+    pub fn point_with_discharge(&self, head_m: f64, q: f64) -> Result<GumPoint, RatingError> {
         let central = |m: &[RatingModel; 2]| -> Result<f64, RatingError> {
             Ok((m[1].discharge_m3s(head_m)? - m[0].discharge_m3s(head_m)?) / (2.0 * STEP))
         };

@@ -215,6 +215,46 @@ pub struct Pipeline<'a> {
     station: &'a Station,
     model: RatingModel,
     options: ConvertOptions,
+    ratings: Option<&'a RatingCache>,
+}
+
+/// Ratings shared between conversions (a network's stations): stations whose structure, range,
+/// uncertainty, exit and tailwater are the same are tabulated once. The rating depends on
+/// nothing else, so a shared one is the same value a station would compute for itself.
+#[derive(Debug, Default)]
+pub struct RatingCache(std::sync::Mutex<std::collections::HashMap<String, std::sync::Arc<stages::RatingStage>>>);
+
+impl RatingCache {
+    /// What the rating of `station` depends on, exactly (floats in their shortest round-trip form).
+    fn key(station: &Station) -> String {
+        format!(
+            "{:?}|{:?}|{:?}|{:?}|{:?}",
+            station.structure, station.range, station.uncertainty, station.exit, station.tailwater
+        )
+    }
+
+    /// The rating of `station`, computed once per distinct key.
+    fn get(&self, station: &Station, model: &RatingModel) -> Result<std::sync::Arc<stages::RatingStage>, RatingError> {
+        let key = Self::key(station);
+        if let Some(r) = self.0.lock().ok().and_then(|m| m.get(&key).cloned()) {
+            return Ok(r);
+        }
+        let r = std::sync::Arc::new(stages::rating(station, model)?);
+        if let Ok(mut m) = self.0.lock() {
+            m.entry(key).or_insert_with(|| r.clone());
+        }
+        Ok(r)
+    }
+
+    /// Distinct ratings held.
+    pub fn len(&self) -> usize {
+        self.0.lock().map_or(0, |m| m.len())
+    }
+
+    /// True when none is held.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
 }
 
 /// Phase times on standard error when FLUMERATE_TIMING is set (for benchmarking; DEVELOPERS.md).
@@ -239,7 +279,26 @@ impl<'a> Pipeline<'a> {
             model: RatingModel::new(station.structure.clone())?,
             station,
             options,
+            ratings: None,
         })
+    }
+
+    /// The same conversion taking its ratings from `cache` (shared by several conversions).
+    pub fn with_ratings(mut self, cache: &'a RatingCache) -> Self {
+        self.ratings = Some(cache);
+        self
+    }
+
+    /// Stage 3 for `station` (this one or an earlier period): from the cache when there is one.
+    fn rating_of(
+        &self,
+        station: &Station,
+        model: &RatingModel,
+    ) -> Result<std::sync::Arc<stages::RatingStage>, RatingError> {
+        match self.ratings {
+            Some(c) => c.get(station, model),
+            None => Ok(std::sync::Arc::new(stages::rating(station, model)?)),
+        }
     }
 
     /// The options.
@@ -296,7 +355,7 @@ impl<'a> Pipeline<'a> {
     }
 
     /// Stage 3b: the rating of each earlier period of the station, with the instant it ends.
-    fn earlier_ratings(&self) -> Result<Vec<(i64, stages::RatingStage, HeadRange)>, PipelineError> {
+    fn earlier_ratings(&self) -> Result<Vec<(i64, std::sync::Arc<stages::RatingStage>, HeadRange)>, PipelineError> {
         let h = &self.station.history;
         h.iter()
             .enumerate()
@@ -304,7 +363,7 @@ impl<'a> Pipeline<'a> {
                 let next = h.get(k + 1).unwrap_or(self.station);
                 let until = next.period.valid_from_ms.unwrap_or(i64::MIN);
                 let model = RatingModel::new(st.structure.clone())?;
-                Ok((until, stages::rating(st, &model)?, st.range))
+                Ok((until, self.rating_of(st, &model)?, st.range))
             })
             .collect()
     }
@@ -313,7 +372,7 @@ impl<'a> Pipeline<'a> {
     /// with that period's rating, range, limits and tailwater.
     fn earlier_conversions<'s>(
         conv: &Conversion<'s>,
-        earlier: &'s [(i64, stages::RatingStage, HeadRange)],
+        earlier: &'s [(i64, std::sync::Arc<stages::RatingStage>, HeadRange)],
     ) -> Vec<EarlierPeriod<'s>> {
         earlier
             .iter()
@@ -393,7 +452,7 @@ impl<'a> Pipeline<'a> {
             source,
         })?;
         timer.mark("times");
-        let rating = stages::rating(self.station, &self.model)?;
+        let rating = self.rating_of(self.station, &self.model)?;
         let earlier = self.earlier_ratings()?;
         timer.mark("rating");
         let (mut conv, corrections) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
@@ -565,7 +624,7 @@ impl<'a> Pipeline<'a> {
             path: "(readings in memory)".into(),
             source,
         })?;
-        let rating = stages::rating(self.station, &self.model)?;
+        let rating = self.rating_of(self.station, &self.model)?;
         let earlier = self.earlier_ratings()?;
         let (mut conv, _) = self.corrections(&rating, &times.timeline, &times.utc, &raw)?;
         self.screen(&mut conv, &mut times.utc, &mut times.days, &mut raw);
