@@ -1,6 +1,7 @@
 //! Logger series: reading exports, correcting heads, converting to discharge, summarising.
 pub mod convert;
 pub mod correct;
+pub mod csv_fast;
 pub mod dense;
 pub mod edits;
 pub mod output;

@@ -45,6 +45,8 @@ impl TableFile {
 
 enum Inner {
     Csv(polars::io::csv::write::BatchedWriter<File>),
+    /// The standard CSV style, formatted by flumerate on all cores (the same bytes).
+    FastCsv(super::csv_fast::FastCsv),
     Parquet(Box<ParquetSink>),
 }
 
@@ -405,8 +407,28 @@ impl SeriesWriter {
     /// A writer into `file` in `format`; `zone` names the time zone of the output's time
     /// column (UTC when `None`); `layout` the units, style and evidence columns.
     pub fn new(file: File, format: TableFile, zone: Option<&str>, layout: Layout) -> PolarsResult<Self> {
+        Self::with_formatter(file, format, zone, layout, true)
+    }
+
+    /// [`Self::new`], choosing for the standard CSV style between flumerate's own formatter
+    /// (`fast`) and polars' CSV writer (the reference its bytes are tested against).
+    pub fn with_formatter(
+        file: File,
+        format: TableFile,
+        zone: Option<&str>,
+        layout: Layout,
+        fast: bool,
+    ) -> PolarsResult<Self> {
         let tz = TimeZone::opt_try_new(Some(zone.unwrap_or("UTC")))?;
         let inner = match format {
+            TableFile::Csv if fast && layout.style == CsvStyle::Standard => {
+                let names: Vec<String> = series_schema(tz.clone(), &layout)
+                    .iter_names()
+                    .map(|n| n.to_string())
+                    .collect();
+                let zone = super::csv_fast::OutZone::of(&layout.zone);
+                Inner::FastCsv(super::csv_fast::FastCsv::new(file, &names, zone)?)
+            }
             TableFile::Csv => {
                 let datetime = match layout.style {
                     CsvStyle::Standard => "%Y-%m-%dT%H:%M:%S%:z",
@@ -465,6 +487,16 @@ impl SeriesWriter {
         }
         let height = c.line.len();
         let floats = float_columns(&mut c, &layout);
+        if let Inner::FastCsv(w) = &mut self.inner {
+            let cols = super::csv_fast::CsvColumns {
+                time_ms: &c.time_ms,
+                floats: &floats,
+                flags: c.flag.iter().map(|f| f.as_str()).collect(),
+                line: &c.line,
+                counted_line: &c.counted_line,
+            };
+            return Ok(w.write(&cols)?);
+        }
         let mut cols = self.time_columns(std::mem::take(&mut c.time_ms));
         let flag: StringChunked = c.flag.iter().map(|f| Some(f.as_str())).collect();
         let mut named = self.floats.iter().zip(floats).map(|((name, _), v)| opt(name, v));
@@ -484,7 +516,7 @@ impl SeriesWriter {
         cols.extend(named);
         match &mut self.inner {
             Inner::Csv(w) => w.write_batch(&DataFrame::new(height, cols)?),
-            Inner::Parquet(_) => unreachable!("handled above"),
+            Inner::FastCsv(_) | Inner::Parquet(_) => unreachable!("handled above"),
         }
     }
 
@@ -492,6 +524,7 @@ impl SeriesWriter {
     pub fn finish(self) -> PolarsResult<()> {
         match self.inner {
             Inner::Csv(mut w) => w.finish()?,
+            Inner::FastCsv(w) => w.finish()?,
             Inner::Parquet(p) => p.finish()?,
         }
         Ok(())
@@ -568,4 +601,117 @@ pub fn write_summary(
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod fast_csv_tests {
+    use super::*;
+    use crate::series::convert::{Chunk, Flag};
+
+    /// A chunk with the awkward cases: no time, daylight-saving changes, old and far years,
+    /// non-finite and signed-zero floats, tiny and huge values, empty counted lines.
+    fn chunk(evidence: bool) -> Chunk {
+        let hour = 3_600_000i64;
+        let mut times = vec![
+            NO_TIME,
+            1_774_746_000_000 - hour, // 2026-03-29 00:00 UTC, before the spring change in Berlin
+            1_774_746_000_000,        // the change itself
+            1_774_746_000_000 + 1_500,
+            1_792_890_000_000 - 1, // just before the autumn change
+            1_792_890_000_000,
+            -2_208_988_800_000,                     // 1900-01-01
+            -2_524_521_600_000 + 12_345,            // 1890: local mean time in Berlin (offset with seconds)
+            4_102_444_799_999,                      // 2099-12-31 23:59:59.999 UTC
+            -1,                                     // 1969-12-31 23:59:59.999 UTC
+            253_402_300_799_000 + 86_400_000 * 400, // beyond year 9999
+        ];
+        let floats = [
+            f64::NAN,
+            f64::INFINITY,
+            -0.0,
+            0.0,
+            1e-7,
+            123_456_789.123,
+            0.1 + 0.2,
+            1e21,
+            5e-324,
+            -2.5,
+            0.25049999999999994,
+        ];
+        for k in 0..5000 {
+            times.push(1_760_000_000_000 + k * 60_000);
+        }
+        let n = times.len();
+        let f = |shift: usize| -> Vec<f64> {
+            (0..n)
+                .map(|k| {
+                    if k < floats.len() {
+                        floats[(k + shift) % floats.len()]
+                    } else {
+                        (k as f64 * 0.37 + shift as f64).sin() / (1.0 + k as f64)
+                    }
+                })
+                .collect()
+        };
+        Chunk {
+            time_ms: times,
+            stage_m: f(0),
+            head_m: f(1),
+            discharge_m3s: f(2),
+            low_m3s: f(3),
+            high_m3s: f(4),
+            flag: (0..n).map(|k| Flag::ALL[k % Flag::ALL.len()]).collect(),
+            line: (0..n as u32).map(|k| k * 7 + 1).collect(),
+            counted_line: (0..n as u32).map(|k| if k % 3 == 0 { 0 } else { k }).collect(),
+            tailwater_m: if evidence { f(5) } else { Vec::new() },
+            submergence: if evidence { f(6) } else { Vec::new() },
+            temperature_c: if evidence { f(7) } else { Vec::new() },
+        }
+    }
+
+    fn written(zone: Zone, evidence: bool, fast: bool, dir: &std::path::Path) -> Vec<u8> {
+        let path = dir.join(format!("{fast}.csv"));
+        let layout = Layout {
+            zone,
+            tailwater: evidence,
+            temperature: evidence,
+            ..Layout::default()
+        };
+        let file = File::create(&path).expect("create");
+        let name = zone.polars_name();
+        let mut w = SeriesWriter::with_formatter(file, TableFile::Csv, name.as_deref(), layout, fast).expect("writer");
+        w.write(chunk(evidence)).expect("write");
+        w.write(chunk(evidence)).expect("write again");
+        w.finish().expect("finish");
+        std::fs::read(&path).expect("read")
+    }
+
+    #[test]
+    fn the_same_bytes_as_polars_csv_writer() {
+        // polars' CSV writer (a general-purpose library) is the reference, byte for byte
+        let dir = tempfile::tempdir().expect("tempdir");
+        let zones = [
+            Zone::Fixed(0),
+            Zone::Fixed(3600),
+            Zone::Fixed(-7200),
+            Zone::Fixed(19_800), // +05:30: written in UTC, as polars is given no zone for it
+            Zone::parse("Europe/Berlin").expect("zone"),
+            Zone::parse("America/St_Johns").expect("zone"),
+            Zone::parse("Asia/Kolkata").expect("zone"),
+            Zone::parse("Australia/Lord_Howe").expect("zone"),
+        ];
+        for zone in zones {
+            for evidence in [false, true] {
+                let ours = written(zone, evidence, true, dir.path());
+                let polars = written(zone, evidence, false, dir.path());
+                if ours != polars {
+                    let (a, b) = (String::from_utf8_lossy(&ours), String::from_utf8_lossy(&polars));
+                    for (x, y) in a.lines().zip(b.lines()) {
+                        assert_eq!(x, y, "{zone:?}, evidence {evidence}");
+                    }
+                    panic!("{zone:?}: lengths {} and {}", ours.len(), polars.len());
+                }
+            }
+        }
+    }
 }
