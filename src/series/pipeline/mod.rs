@@ -266,7 +266,19 @@ impl Timer {
     }
     fn mark(&mut self, what: &str) {
         if let Some(t) = self.0 {
-            eprintln!("timing: {what:<24} {:>8.3} s", t.elapsed().as_secs_f64());
+            // the peak resident memory so far (Linux), for the benchmarks' memory budget
+            let peak = std::fs::read_to_string("/proc/self/status")
+                .ok()
+                .and_then(|s| {
+                    s.lines()
+                        .find(|l| l.starts_with("VmHWM:"))
+                        .map(|l| l[6..].trim().to_string())
+                })
+                .unwrap_or_default();
+            eprintln!(
+                "timing: {what:<24} {:>8.3} s  (peak so far {peak})",
+                t.elapsed().as_secs_f64()
+            );
             self.0 = Some(std::time::Instant::now());
         }
     }
