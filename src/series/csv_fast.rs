@@ -8,7 +8,7 @@
 use std::fs::File;
 use std::io::{BufWriter, Write};
 
-use super::time::{Zone, NO_TIME};
+use super::time::{civil_from_days, Zone, NO_TIME};
 
 /// The output zone of the time column: the zone polars is given (UTC where a fixed offset is
 /// not a whole number of hours: `Zone::polars_name`).
@@ -90,20 +90,6 @@ fn format_rows(c: &CsvColumns, rows: std::ops::Range<usize>, zone: OutZone, buf:
         }
         buf.push(b'\n');
     }
-}
-
-/// Proleptic Gregorian (year, month, day) of a day count from 1970-01-01 (Hinnant, H. 2013,
-/// "chrono-Compatible Low-Level Date Algorithms", `civil_from_days`).
-fn civil_from_days(z: i64) -> (i64, u32, u32) {
-    let z = z + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
-    (yoe + era * 400 + i64::from(m <= 2), m, d)
 }
 
 #[inline]
@@ -232,7 +218,7 @@ mod tests {
 
     #[test]
     fn civil_dates_match_chrono() {
-        // chrono's calendar as the reference (a general-purpose library), every 997th day over
+        // time::civil_from_days, which the formatter uses, against chrono's calendar as the reference (a general-purpose library), every 997th day over
         // 1600–2400 and the edges of the Gregorian cycle
         for days in (-135_000..160_000i64)
             .step_by(997)

@@ -232,6 +232,23 @@ pub trait Overlay: Clone {
     fn overlay(&self, over: &Self) -> Self;
 }
 
+/// `impl Overlay` for a table: each key `over` gives replaces the base's.
+macro_rules! overlay_keys {
+    ($t:ty; $($f:ident),+) => {
+        impl Overlay for $t {
+            fn overlay(&self, over: &Self) -> Self {
+                let mut b = self.clone();
+                $(
+                    if over.$f.is_some() {
+                        b.$f = over.$f.clone();
+                    }
+                )+
+                b
+            }
+        }
+    };
+}
+
 /// A table of a period over the same table of the station before it.
 pub fn overlay_table<T: Overlay>(base: &Option<Spanned<T>>, over: &Option<Spanned<T>>) -> Option<Spanned<T>> {
     match (base, over) {
@@ -241,302 +258,20 @@ pub fn overlay_table<T: Overlay>(base: &Option<Spanned<T>>, over: &Option<Spanne
     }
 }
 
-impl Overlay for RawCalibration {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.factor.is_some() {
-            b.factor = over.factor.clone();
-        }
-        if over.factor_u95_pct.is_some() {
-            b.factor_u95_pct = over.factor_u95_pct.clone();
-        }
-        if over.zero_offset.is_some() {
-            b.zero_offset = over.zero_offset.clone();
-        }
-        if over.zero_offset_u95.is_some() {
-            b.zero_offset_u95 = over.zero_offset_u95.clone();
-        }
-        if over.gaugings.is_some() {
-            b.gaugings = over.gaugings.clone();
-        }
-        if over.from.is_some() {
-            b.from = over.from.clone();
-        }
-        if over.to.is_some() {
-            b.to = over.to.clone();
-        }
-        if over.source_sha256.is_some() {
-            b.source_sha256 = over.source_sha256.clone();
-        }
-        if over.mean_deviation_pct.is_some() {
-            b.mean_deviation_pct = over.mean_deviation_pct.clone();
-        }
-        if over.mean_deviation_u95_pct.is_some() {
-            b.mean_deviation_u95_pct = over.mean_deviation_u95_pct.clone();
-        }
-        if over.factor_zero_correlation.is_some() {
-            b.factor_zero_correlation = over.factor_zero_correlation.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawCalibration; factor, factor_u95_pct, zero_offset, zero_offset_u95, gaugings, from, to, source_sha256, mean_deviation_pct, mean_deviation_u95_pct, factor_zero_correlation);
 
-impl Overlay for RawScreening {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.enabled.is_some() {
-            b.enabled = over.enabled.clone();
-        }
-        if over.spike_rise.is_some() {
-            b.spike_rise = over.spike_rise.clone();
-        }
-        if over.spike_return.is_some() {
-            b.spike_return = over.spike_return.clone();
-        }
-        if over.flat_hours.is_some() {
-            b.flat_hours = over.flat_hours.clone();
-        }
-        if over.out_of_water_tolerance.is_some() {
-            b.out_of_water_tolerance = over.out_of_water_tolerance.clone();
-        }
-        if over.fill_max_hours.is_some() {
-            b.fill_max_hours = over.fill_max_hours.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawScreening; enabled, spike_rise, spike_return, flat_hours, out_of_water_tolerance, fill_max_hours);
 
-impl Overlay for RawControl {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.shape.is_some() {
-            b.shape = over.shape.clone();
-        }
-        if over.width.is_some() {
-            b.width = over.width.clone();
-        }
-        if over.side_slope.is_some() {
-            b.side_slope = over.side_slope.clone();
-        }
-        if over.diameter.is_some() {
-            b.diameter = over.diameter.clone();
-        }
-        if over.points.is_some() {
-            b.points = over.points.clone();
-        }
-        if over.length.is_some() {
-            b.length = over.length.clone();
-        }
-        if over.coefficient.is_some() {
-            b.coefficient = over.coefficient.clone();
-        }
-        if over.displacement_ratio.is_some() {
-            b.displacement_ratio = over.displacement_ratio.clone();
-        }
-        if over.roughness.is_some() {
-            b.roughness = over.roughness.clone();
-        }
-        if over.structure.is_some() {
-            b.structure = over.structure.clone();
-        }
-        if over.upstream_edge.is_some() {
-            b.upstream_edge = over.upstream_edge.clone();
-        }
-        if over.notch_angle_deg.is_some() {
-            b.notch_angle_deg = over.notch_angle_deg.clone();
-        }
-        if over.plate_height.is_some() {
-            b.plate_height = over.plate_height.clone();
-        }
-        if over.size.is_some() {
-            b.size = over.size.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawControl; shape, width, side_slope, diameter, points, length, coefficient, displacement_ratio, roughness, structure, upstream_edge, notch_angle_deg, plate_height, size);
 
-impl Overlay for RawApproach {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.shape.is_some() {
-            b.shape = over.shape.clone();
-        }
-        if over.width.is_some() {
-            b.width = over.width.clone();
-        }
-        if over.side_slope.is_some() {
-            b.side_slope = over.side_slope.clone();
-        }
-        if over.diameter.is_some() {
-            b.diameter = over.diameter.clone();
-        }
-        if over.points.is_some() {
-            b.points = over.points.clone();
-        }
-        if over.sill_height.is_some() {
-            b.sill_height = over.sill_height.clone();
-        }
-        if over.alpha.is_some() {
-            b.alpha = over.alpha.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawApproach; shape, width, side_slope, diameter, points, sill_height, alpha);
 
-impl Overlay for RawExit {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.expansion.is_some() {
-            b.expansion = over.expansion.clone();
-        }
-        if over.modular_limit.is_some() {
-            b.modular_limit = over.modular_limit.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawExit; expansion, modular_limit);
 
-impl Overlay for RawTailwater {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.bed_below_crest.is_some() {
-            b.bed_below_crest = over.bed_below_crest.clone();
-        }
-        if over.shape.is_some() {
-            b.shape = over.shape.clone();
-        }
-        if over.width.is_some() {
-            b.width = over.width.clone();
-        }
-        if over.side_slope.is_some() {
-            b.side_slope = over.side_slope.clone();
-        }
-        if over.diameter.is_some() {
-            b.diameter = over.diameter.clone();
-        }
-        if over.points.is_some() {
-            b.points = over.points.clone();
-        }
-        if over.manning_n.is_some() {
-            b.manning_n = over.manning_n.clone();
-        }
-        if over.bed_slope.is_some() {
-            b.bed_slope = over.bed_slope.clone();
-        }
-        if over.table.is_some() {
-            b.table = over.table.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawTailwater; bed_below_crest, shape, width, side_slope, diameter, points, manning_n, bed_slope, table);
 
-impl Overlay for RawRange {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.min_head.is_some() {
-            b.min_head = over.min_head.clone();
-        }
-        if over.max_head.is_some() {
-            b.max_head = over.max_head.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawRange; min_head, max_head);
 
-impl Overlay for RawUncertainty {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.coefficient_pct.is_some() {
-            b.coefficient_pct = over.coefficient_pct.clone();
-        }
-        if over.zero_mm.is_some() {
-            b.zero_mm = over.zero_mm.clone();
-        }
-        if over.dimension_pct.is_some() {
-            b.dimension_pct = over.dimension_pct.clone();
-        }
-        if over.head_mm.is_some() {
-            b.head_mm = over.head_mm.clone();
-        }
-        if over.coefficient_distribution.is_some() {
-            b.coefficient_distribution = over.coefficient_distribution.clone();
-        }
-        if over.zero_distribution.is_some() {
-            b.zero_distribution = over.zero_distribution.clone();
-        }
-        if over.dimension_distribution.is_some() {
-            b.dimension_distribution = over.dimension_distribution.clone();
-        }
-        if over.head_distribution.is_some() {
-            b.head_distribution = over.head_distribution.clone();
-        }
-        if over.coverage_factor.is_some() {
-            b.coverage_factor = over.coverage_factor.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawUncertainty; coefficient_pct, zero_mm, dimension_pct, head_mm, coefficient_distribution, zero_distribution, dimension_distribution, head_distribution, coverage_factor);
 
-impl Overlay for RawLogger {
-    fn overlay(&self, over: &Self) -> Self {
-        let mut b = self.clone();
-        if over.time_column.is_some() {
-            b.time_column = over.time_column.clone();
-        }
-        if over.time_format.is_some() {
-            b.time_format = over.time_format.clone();
-        }
-        if over.timezone.is_some() {
-            b.timezone = over.timezone.clone();
-        }
-        if over.stage_column.is_some() {
-            b.stage_column = over.stage_column.clone();
-        }
-        if over.stage_unit.is_some() {
-            b.stage_unit = over.stage_unit.clone();
-        }
-        if over.zero.is_some() {
-            b.zero = over.zero.clone();
-        }
-        if over.tailwater_column.is_some() {
-            b.tailwater_column = over.tailwater_column.clone();
-        }
-        if over.tailwater_zero.is_some() {
-            b.tailwater_zero = over.tailwater_zero.clone();
-        }
-        if over.missing.is_some() {
-            b.missing = over.missing.clone();
-        }
-        if over.separator.is_some() {
-            b.separator = over.separator.clone();
-        }
-        if over.decimal_comma.is_some() {
-            b.decimal_comma = over.decimal_comma.clone();
-        }
-        if over.skip_lines.is_some() {
-            b.skip_lines = over.skip_lines.clone();
-        }
-        if over.header.is_some() {
-            b.header = over.header.clone();
-        }
-        if over.pressure_column.is_some() {
-            b.pressure_column = over.pressure_column.clone();
-        }
-        if over.pressure_unit.is_some() {
-            b.pressure_unit = over.pressure_unit.clone();
-        }
-        if over.temperature_column.is_some() {
-            b.temperature_column = over.temperature_column.clone();
-        }
-        if over.water_temperature.is_some() {
-            b.water_temperature = over.water_temperature.clone();
-        }
-        if over.dry_reading.is_some() {
-            b.dry_reading = over.dry_reading.clone();
-        }
-        if over.max_depth.is_some() {
-            b.max_depth = over.max_depth.clone();
-        }
-        b
-    }
-}
+overlay_keys!(RawLogger; time_column, time_format, timezone, stage_column, stage_unit, zero, tailwater_column, tailwater_zero, missing, separator, decimal_comma, skip_lines, header, pressure_column, pressure_unit, temperature_column, water_temperature, dry_reading, max_depth);

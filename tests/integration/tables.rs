@@ -1,20 +1,9 @@
 //! `rate --breakpoints/--max-error/--segments`: the short table meets its stated error at
 //! 10 000 heads between every pair of breakpoints, checked against the rating itself.
 
-use crate::common::flumerate;
+use crate::common::{flumerate, rate_json};
 use flumerate::rating::RatingModel;
 use flumerate::station::Station;
-
-fn json(args: &[&str]) -> serde_json::Value {
-    let out = flumerate()
-        .arg("rate")
-        .args(args)
-        .args(["--format", "json"])
-        .output()
-        .expect("run");
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
-    serde_json::from_slice(&out.stdout).expect("json")
-}
 
 #[test]
 fn short_tables_meet_their_stated_error_at_ten_thousand_heads_per_segment() {
@@ -25,7 +14,7 @@ fn short_tables_meet_their_stated_error_at_ten_thousand_heads_per_segment() {
         let st = Station::load(std::path::Path::new(station)).expect("station");
         let model = RatingModel::new(st.structure.clone()).expect("model");
         for args in [vec![station, "--max-error", "0.5"], vec![station, "--breakpoints", "6"]] {
-            let doc = json(&args);
+            let doc = rate_json(std::path::Path::new(station), &args[1..]);
             let stated = doc["max_relative_error_pct"].as_f64().expect("stated") / 100.0;
             if args[1] == "--max-error" {
                 assert!(stated <= 0.005, "{station}: {stated}");
