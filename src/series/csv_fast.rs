@@ -189,7 +189,7 @@ impl FastCsv {
                 .map(|start| {
                     let end = (start + per).min(n);
                     scope.spawn(move || {
-                        let mut buf = Vec::with_capacity((end - start) * 160);
+                        let mut buf = Vec::with_capacity((end - start) * 128);
                         format_rows(c, start..end, zone, &mut buf);
                         buf
                     })

@@ -187,12 +187,68 @@ pub struct Rows<'a> {
     pub raw: &'a [f64],
     /// Head (m): zero, edits and drift applied; NaN where there is none (no time, no reading, an
     /// impossible one).
-    pub head: &'a [f64],
+    pub head: Heads<'a>,
     /// [`AIR`] where the stage is at or below the sensor's dry reading, [`NEAR_DRY`] where it is
     /// within the out-of-water tolerance of it (both bits when at or below).
     pub air: &'a [u8],
     /// The nominal interval (ms).
     pub interval_ms: i64,
+}
+
+/// The rows' heads for the screening: stored, or worked out from the logged stage when nothing
+/// but the logger's zero applies to it (no edits, no drift, a stage logger), which saves a whole
+/// column of memory on long files. Both give the same value, bit for bit, as
+/// `Conversion::level` (tested).
+#[derive(Debug, Clone, Copy)]
+pub enum Heads<'a> {
+    /// One head per row.
+    Stored(&'a [f64]),
+    /// head = stage × `metres_per_unit` − `zero_m` (NaN without a time or outside the readable
+    /// range `min_m..=max_m`).
+    FromStage {
+        /// The logged stage, as logged.
+        stage: &'a [f64],
+        /// The rows' instants ([`crate::series::time::NO_TIME`]: no head).
+        utc: &'a [i64],
+        /// Metres per logged unit.
+        metres_per_unit: f64,
+        /// The logger's zero (m).
+        zero_m: f64,
+        /// The lowest and highest stage the logger can read (m).
+        min_m: f64,
+        /// See `min_m`.
+        max_m: f64,
+    },
+}
+
+impl Heads<'_> {
+    /// The head of row `i` (m).
+    #[inline]
+    pub fn get(&self, i: usize) -> f64 {
+        match *self {
+            Heads::Stored(h) => h[i],
+            Heads::FromStage {
+                stage,
+                utc,
+                metres_per_unit,
+                zero_m,
+                min_m,
+                max_m,
+            } => {
+                if utc[i] == crate::series::time::NO_TIME {
+                    return f64::NAN;
+                }
+                let s = stage[i] * metres_per_unit;
+                if s < min_m || s > max_m {
+                    return f64::NAN;
+                }
+                // as `Conversion::level` forms it: stage − zero + the (empty) sum of offsets +
+                // no drift, so that even the sign of a zero head is the same
+                let no_offsets: f64 = std::iter::empty::<f64>().sum();
+                s - zero_m + no_offsets + 0.0
+            }
+        }
+    }
 }
 
 /// [`Rows::air`]: the stage is at or below the sensor's dry reading.
@@ -264,9 +320,8 @@ const NO_HEAD: u8 = 255;
 /// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
 pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) -> Screened {
     let mut s = Screened {
-        codes: rows.head[..n]
-            .iter()
-            .map(|h| if h.is_finite() { 0 } else { NO_HEAD })
+        codes: (0..n)
+            .map(|i| if rows.head.get(i).is_finite() { 0 } else { NO_HEAD })
             .collect(),
         edit_rows: vec![0; edits.edits.len()],
         ..Default::default()
@@ -331,7 +386,7 @@ fn out_of_water(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
             in_episode |= dropped;
         } else {
             in_episode = false;
-            flowing_before = rows.head[i] > spec.out_of_water_tolerance_m;
+            flowing_before = rows.head.get(i) > spec.out_of_water_tolerance_m;
         }
     }
 }
@@ -347,9 +402,9 @@ fn spikes(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
     let mut ahead: Vec<usize> = Vec::with_capacity(spec.spike_return + 1);
     while let Some(pk) = k {
         let (ib, ik) = (rows.row(before), rows.row(pk));
-        let h0 = rows.head[ib];
+        let h0 = rows.head.get(ib);
         let consecutive = rows.utc[ik] - rows.utc[ib] <= 2 * rows.interval_ms;
-        if !(consecutive && (rows.head[ik] - h0).abs() > rise) {
+        if !(consecutive && (rows.head.get(ik) - h0).abs() > rise) {
             before = pk;
             k = rows.next_usable(codes, pk + 1);
             continue;
@@ -363,7 +418,7 @@ fn spikes(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
                 None => break,
             }
         }
-        let back = (1..ahead.len()).find(|&m| (rows.head[rows.row(ahead[m])] - h0).abs() <= rise / 2.0);
+        let back = (1..ahead.len()).find(|&m| (rows.head.get(rows.row(ahead[m])) - h0).abs() <= rise / 2.0);
         match back {
             Some(m) => {
                 for &q in &ahead[..m] {
@@ -399,7 +454,7 @@ fn flat(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
             next = rows.next_usable(codes, q + 1);
         }
         let long = rows.utc[rows.row(end)] - rows.utc[i0] >= min_ms;
-        if count > 1 && rows.head[i0] > 0.0 && long {
+        if count > 1 && rows.head.get(i0) > 0.0 && long {
             for q in start..=end {
                 let i = rows.row(q);
                 if codes[i] == 0 && rows.raw[i].to_bits() == bits {
@@ -486,7 +541,7 @@ fn fill_one_gap(
         .copied()
         .filter(|&r| by_rule || s.codes[r as usize] == Screen::FillEdit as u8)
         .collect();
-    let (ha, hb) = (rows.head[a], rows.head[b]);
+    let (ha, hb) = (rows.head.get(a), rows.head.get(b));
     let fill_at = |t: i64| Fill {
         head_m: ha + (hb - ha) * ((t - ta) as f64 / (tb - ta) as f64),
         u_m: ((hb - ha).abs() / 2.0).max(MIN_FILL_HALF_WIDTH_M) / 3f64.sqrt(),
@@ -602,7 +657,7 @@ mod tests {
             order: None,
             utc,
             raw: &raw,
-            head: heads,
+            head: Heads::Stored(heads),
             air: &air,
             interval_ms: 15 * MIN,
         };

@@ -5,7 +5,7 @@ use super::super::convert::{Chunk, Conversion, Counts, Plausible, StageSource, S
 use super::super::correct::{drift_points, drift_warnings, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use super::super::dense::DenseRating;
 use super::super::read::RawSeries;
-use super::super::screen::{Rows, Screened, ScreeningSpec, Sensor};
+use super::super::screen::{Heads, Rows, Screened, ScreeningSpec, Sensor};
 use super::super::settings::LoggerSettings;
 use super::super::side::{read_side_file, SideError};
 use super::super::time::{resolve_in_place, TimeNote, NO_TIME};
@@ -18,7 +18,7 @@ use crate::tailwater::{Exit, Tailwater};
 use crate::uncertainty::{GumModel, Inputs};
 
 /// Rows per chunk converted and written at a time.
-pub const CHUNK_ROWS: usize = 1 << 18;
+pub const CHUNK_ROWS: usize = 1 << 17;
 
 /// The rows' times: instants, local days, notes and the time order.
 #[derive(Debug, Clone)]
@@ -258,11 +258,42 @@ pub fn sensor(settings: &LoggerSettings, spec: &ScreeningSpec) -> Sensor {
 /// order ([`super::super::screen`]). Every row's head is computed once, on all cores.
 pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningSpec, sensor: Sensor) -> Screened {
     let n = raw.lines.len();
-    let mut head = vec![f64::NAN; n];
+    // nothing but the zero applies to the stage: heads worked out as screening needs them
+    let simple = match conv.stage {
+        StageSource::Level { metres_per_unit } if conv.edits.is_empty() && conv.drift.is_empty() => {
+            Some(Heads::FromStage {
+                stage: &raw.values[0],
+                utc,
+                metres_per_unit,
+                zero_m: conv.zero_m,
+                min_m: conv.plausible.min_stage_m,
+                max_m: conv.plausible.max_stage_m,
+            })
+        }
+        _ => None,
+    };
+    let mut head = if simple.is_some() {
+        Vec::new()
+    } else {
+        vec![f64::NAN; n]
+    };
     let mut air = vec![0u8; n];
     let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
     let per = n.div_ceil(threads).max(1);
     std::thread::scope(|scope| {
+        if simple.is_some() {
+            for (k, a) in air.chunks_mut(per).enumerate() {
+                scope.spawn(move || {
+                    for (j, a) in a.iter_mut().enumerate() {
+                        let i = k * per + j;
+                        if utc[i] != NO_TIME {
+                            *a = sensor.air_bits(conv.level(i, utc[i], &raw.values).stage_m, spec);
+                        }
+                    }
+                });
+            }
+            return;
+        }
         for (k, (h, a)) in head.chunks_mut(per).zip(air.chunks_mut(per)).enumerate() {
             scope.spawn(move || {
                 for (j, (h, a)) in h.iter_mut().zip(a.iter_mut()).enumerate() {
@@ -282,7 +313,7 @@ pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningS
         order,
         utc,
         raw: &raw.values[0],
-        head: &head,
+        head: simple.unwrap_or(Heads::Stored(&head)),
         air: &air,
         interval_ms: conv.timeline.interval_ms,
     };
@@ -478,6 +509,75 @@ mod tests {
 
     /// The drift at a visit is staff minus logger at the nearest readings; converting every row
     /// with it gives the same rows whatever the write order.
+    #[test]
+    fn heads_from_the_stage_equal_the_conversions_bit_for_bit() {
+        let st = station();
+        let s = settings(&st);
+        let model = RatingModel::new(st.structure.clone()).expect("model");
+        let rt = rating(&st, &model).expect("rating");
+        // awkward stages: at the zero (a zero head), −0.0, missing, below and above what the
+        // logger can read, tiny and ordinary steps
+        let stages = [
+            0.1,
+            -0.0,
+            f64::NAN,
+            -5.0,
+            1e9,
+            0.1 + 1e-17,
+            0.30000000000000004,
+            0.4,
+            0.0999999,
+            0.35,
+        ];
+        let texts: Vec<String> = (0..stages.len()).map(|k| format!("2026-01-01 {:02}:00", k)).collect();
+        let mut refs: Vec<&str> = texts.iter().map(String::as_str).collect();
+        refs[3] = "not a time";
+        let mut r = raw(&refs, &stages);
+        let t = times(&mut r, &s).expect("times");
+        let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
+        let StageSource::Level { metres_per_unit } = source else {
+            panic!("a stage logger")
+        };
+        let conv = Conversion {
+            gum: &rt.gum,
+            table: &rt.table,
+            range: st.range,
+            stage: source,
+            zero_m: 0.1,
+            plausible: plausible(&s, &st),
+            invalid_bands: Vec::new(),
+            drift: Vec::new(),
+            tailwater_column: None,
+            tailwater: None,
+            submerged_estimate: false,
+            exponent: rt.exponent,
+            timeline: &t.timeline,
+            zone: s.zone,
+            gravity_m_s2: 9.80665,
+            edits: Default::default(),
+            screened: Default::default(),
+            input_rows: stages.len(),
+            temperature_column: None,
+            earlier: Vec::new(),
+        };
+        let heads = Heads::FromStage {
+            stage: &r.values[0],
+            utc: &t.utc,
+            metres_per_unit,
+            zero_m: conv.zero_m,
+            min_m: conv.plausible.min_stage_m,
+            max_m: conv.plausible.max_stage_m,
+        };
+        for i in 0..stages.len() {
+            let want = if t.utc[i] == NO_TIME {
+                f64::NAN
+            } else {
+                conv.level(i, t.utc[i], &r.values).head_m
+            };
+            assert_eq!(heads.get(i).to_bits(), want.to_bits(), "row {i}: stage {}", stages[i]);
+        }
+    }
+
     #[test]
     fn drift_and_conversion_of_every_row() {
         let st = station();
