@@ -568,13 +568,13 @@ mod tests {
             min_m: conv.plausible.min_stage_m,
             max_m: conv.plausible.max_stage_m,
         };
-        for i in 0..stages.len() {
+        for (i, stage) in stages.iter().enumerate() {
             let want = if t.utc[i] == NO_TIME {
                 f64::NAN
             } else {
                 conv.level(i, t.utc[i], &r.values).head_m
             };
-            assert_eq!(heads.get(i).to_bits(), want.to_bits(), "row {i}: stage {}", stages[i]);
+            assert_eq!(heads.get(i).to_bits(), want.to_bits(), "row {i}: stage {stage}");
         }
     }
 
