@@ -509,6 +509,40 @@ mod tests {
 
     /// The drift at a visit is staff minus logger at the nearest readings; converting every row
     /// with it gives the same rows whatever the write order.
+    /// The conversion set-up of the tests: the station's rating and range, zero 0.1 m, no
+    /// drift, edits or tailwater.
+    fn test_conversion<'a>(
+        rt: &'a RatingStage,
+        st: &Station,
+        s: &LoggerSettings,
+        t: &'a Times,
+        source: StageSource,
+        rows: usize,
+    ) -> Conversion<'a> {
+        Conversion {
+            gum: &rt.gum,
+            table: &rt.table,
+            range: st.range,
+            stage: source,
+            zero_m: 0.1,
+            plausible: plausible(s, st),
+            invalid_bands: rt.invalid_bands.clone(),
+            drift: Vec::new(),
+            tailwater_column: None,
+            tailwater: None,
+            submerged_estimate: false,
+            exponent: rt.exponent,
+            timeline: &t.timeline,
+            zone: s.zone,
+            gravity_m_s2: 9.80665,
+            edits: Default::default(),
+            screened: Default::default(),
+            input_rows: rows,
+            temperature_column: None,
+            earlier: Vec::new(),
+        }
+    }
+
     #[test]
     fn heads_from_the_stage_equal_the_conversions_bit_for_bit() {
         let st = station();
@@ -538,28 +572,7 @@ mod tests {
         let StageSource::Level { metres_per_unit } = source else {
             panic!("a stage logger")
         };
-        let conv = Conversion {
-            gum: &rt.gum,
-            table: &rt.table,
-            range: st.range,
-            stage: source,
-            zero_m: 0.1,
-            plausible: plausible(&s, &st),
-            invalid_bands: Vec::new(),
-            drift: Vec::new(),
-            tailwater_column: None,
-            tailwater: None,
-            submerged_estimate: false,
-            exponent: rt.exponent,
-            timeline: &t.timeline,
-            zone: s.zone,
-            gravity_m_s2: 9.80665,
-            edits: Default::default(),
-            screened: Default::default(),
-            input_rows: stages.len(),
-            temperature_column: None,
-            earlier: Vec::new(),
-        };
+        let conv = test_conversion(&rt, &st, &s, &t, source, stages.len());
         let heads = Heads::FromStage {
             stage: &r.values[0],
             utc: &t.utc,
@@ -589,28 +602,7 @@ mod tests {
         let mut r = raw(&refs, &[0.4; 8]);
         let t = times(&mut r, &s).expect("times");
         let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
-        let mut conv = Conversion {
-            gum: &rt.gum,
-            table: &rt.table,
-            range: st.range,
-            stage: source,
-            zero_m: 0.1,
-            plausible: plausible(&s, &st),
-            invalid_bands: rt.invalid_bands.clone(),
-            drift: Vec::new(),
-            tailwater_column: None,
-            tailwater: None,
-            submerged_estimate: false,
-            exponent: rt.exponent,
-            timeline: &t.timeline,
-            zone: s.zone,
-            gravity_m_s2: 9.80665,
-            edits: Default::default(),
-            screened: Default::default(),
-            input_rows: 8,
-            temperature_column: None,
-            earlier: Vec::new(),
-        };
+        let mut conv = test_conversion(&rt, &st, &s, &t, source, 8);
         let dir = tempfile::tempdir().expect("tempdir");
         let visits = dir.path().join("v.csv");
         // logger head 0.300 m; the staff reads 0.304 m at 03:00: +4 mm
