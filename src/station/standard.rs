@@ -205,30 +205,7 @@ impl Ctx<'_> {
                 "remove notch_angle_deg, or set shape = \"triangle\"",
             ));
         }
-        let plate = match &c.plate_height {
-            Some(p) => self.positive_length(
-                p,
-                "control.plate_height",
-                unit,
-                "give the height p of the crest (or the notch's vertex) above the approach bed",
-            )?,
-            None => {
-                return Err(self.missing(
-                    span,
-                    "control.plate_height",
-                    "add plate_height = the height p of the crest (or the notch's vertex) above the approach bed",
-                ))
-            }
-        };
-        if plate <= 0.0 {
-            let p = c.plate_height.as_ref().map_or(span.clone(), |p| p.span());
-            return Err(self.err(
-                p,
-                "control.plate_height",
-                "the plate height must be greater than zero: a thin-plate weir needs a pool below its crest",
-                "give the height of the crest above the approach bed",
-            ));
-        }
+        let plate = self.plate_height(c, span, unit)?;
         Ok(ControlPart {
             section,
             length_m: 0.0,
@@ -236,6 +213,24 @@ impl Ctx<'_> {
             kind: StructureKind::ThinPlateWeir,
             plate_height_m: Some(plate),
         })
+    }
+
+    /// `plate_height`: the crest's (or the vertex's) height above the approach bed, greater than
+    /// zero (a thin-plate weir needs a pool below its crest).
+    fn plate_height(&self, c: &RawControl, span: Range<usize>, unit: LengthUnit) -> Result<f64, StationError> {
+        match &c.plate_height {
+            Some(p) => self.positive_length(
+                p,
+                "control.plate_height",
+                unit,
+                "give the height p of the crest (or the notch's vertex) above the approach bed",
+            ),
+            None => Err(self.missing(
+                span,
+                "control.plate_height",
+                "add plate_height = the height p of the crest (or the notch's vertex) above the approach bed",
+            )),
+        }
     }
 
     /// `notch_angle_deg`, within Kindsvater–Shen's 20° to 100° (ISO 1438 §10.5).

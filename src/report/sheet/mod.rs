@@ -296,6 +296,11 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
             ));
         }
         h.push_str("</tbody>\n</table>\n");
+        self.limits_key_html(&keys, h);
+    }
+
+    /// The key to the limits the grid's rows break, numbered as in its `limits` column.
+    fn limits_key_html(&self, keys: &[&str], h: &mut String) {
         if !keys.is_empty() {
             h.push_str("<p class=\"key\"><b>Limits:</b> ");
             let parts: Vec<String> = keys
