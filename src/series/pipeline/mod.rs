@@ -478,12 +478,7 @@ impl<'a> Pipeline<'a> {
         let zone = self.options.settings.zone;
         let daily = converted.summaries.daily(&zone, &rating.inputs);
         let monthly = converted.summaries.monthly(&zone, &rating.inputs);
-        for (p, key, rows) in [(&out.daily, "date", &daily), (&out.monthly, "month", &monthly)] {
-            if let Some(p) = p {
-                let format = TableFile::from_path(p).expect("checked");
-                write_summary(outputs.create(p)?, format, key, rows, &self.layout()).map_err(|e| output_error(p, e))?;
-            }
-        }
+        self.write_summaries(out, &daily, &monthly, &mut outputs)?;
         if let (Some(p), Some(fmt)) = (&out.plot, formats.1) {
             let image = self
                 .plot(&converted, &conv, &corrections, fmt)
@@ -523,6 +518,23 @@ impl<'a> Pipeline<'a> {
             daily,
             monthly,
         })
+    }
+
+    /// The daily and monthly summaries, where asked for.
+    fn write_summaries(
+        &self,
+        out: &OutputPaths,
+        daily: &[PeriodRow],
+        monthly: &[PeriodRow],
+        outputs: &mut OutputSet,
+    ) -> Result<(), PipelineError> {
+        for (p, key, rows) in [(&out.daily, "date", daily), (&out.monthly, "month", monthly)] {
+            if let Some(p) = p {
+                let format = TableFile::from_path(p).expect("checked");
+                write_summary(outputs.create(p)?, format, key, rows, &self.layout()).map_err(|e| output_error(p, e))?;
+            }
+        }
+        Ok(())
     }
 
     /// Stage 5 with its output: converts every row and streams the chunks to the series file,
