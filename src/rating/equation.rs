@@ -78,7 +78,10 @@ impl RatingEquation {
         // Q_u = Kq·K·(h_u·Lm + h0)^u with Lm = metres per unit: K_u = Kq·K·Lm^u
         let lm = units.length_to_si(1.0);
         let k = round_sig(units.discharge_from_si(self.fit.k) * lm.powf(self.fit.u), sig_ku);
+        // an offset below a ten-thousandth of a millimetre (or foot) is printed as none; the
+        // deviation below is computed with it so
         let h0 = round_sig(units.length_from_si(self.fit.h0_m), sig_h0);
+        let h0 = if h0.abs() < 1e-7 { 0.0 } else { h0 };
         let u = round_sig(self.fit.u, sig_ku);
         let max_relative_deviation = self
             .rows

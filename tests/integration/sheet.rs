@@ -219,10 +219,16 @@ fn the_sheet_fits_a4_and_letter_with_nothing_clipped() {
     };
     let dir = tempfile::tempdir().expect("tempdir");
     let short = crate::common::short_throat_station(dir.path());
-    for station in [short.as_path(), Path::new("ratings/ridgeway-canal-flume.toml")] {
+    for station in [
+        short.as_path(),
+        Path::new("ratings/ridgeway-canal-flume.toml"),
+        Path::new("ratings/mill-lane-outfall-vnotch.toml"),
+        Path::new("ratings/kestrel-lateral-parshall.toml"),
+    ] {
         for paper in ["a4", "letter"] {
             for units in ["si", "us"] {
-                let out = dir.path().join(format!("sheet-{paper}-{units}.html"));
+                let stem = station.file_stem().expect("name").to_string_lossy();
+                let out = dir.path().join(format!("sheet-{stem}-{paper}-{units}.html"));
                 flumerate()
                     .arg("sheet")
                     .arg(station)

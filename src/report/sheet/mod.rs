@@ -162,15 +162,16 @@ footer { margin-top: 1.2mm; font-size: 6.8pt; border-top: 0.4mm solid #000; padd
         );
     }
 
-    /// The grid's discharge unit and its factor on the output unit: a small structure's grid in
-    /// L/s (SI only), so that its discharges stay short enough to fit.
+    /// The grid's discharge unit and its factor on the output unit: below 1 m³/s the grid is in
+    /// L/s (SI only), so that its discharges (four figures, never more than 999.9) stay short
+    /// enough to fit the page.
     fn grid_unit<'a>(&self, output_unit: &'a str) -> (&'a str, f64) {
         let largest = self
             .rows
             .iter()
             .flat_map(|r| r.cells.iter().filter_map(|c| c.discharge_m3s))
             .fold(0.0f64, f64::max);
-        if matches!(self.units, Units::Si) && largest < 0.1 {
+        if matches!(self.units, Units::Si) && largest < 1.0 {
             ("L/s", 1000.0)
         } else {
             (output_unit, 1.0)
