@@ -366,6 +366,27 @@ impl Drop for OutputSet {
     }
 }
 
+/// A small input file (an edits log, gaugings, a side file) read whole, with the SHA-256 of the
+/// same bytes for the provenance. The error is in words, for the caller's own error type.
+pub fn read_hashed(path: &Path) -> Result<(Vec<u8>, String), String> {
+    use sha2::Digest;
+    let bytes = std::fs::read(path).map_err(|e| format!("cannot read it: {e}"))?;
+    let sha256 = format!("{:x}", sha2::Sha256::digest(&bytes));
+    Ok((bytes, sha256))
+}
+
+/// [`read_hashed`] as UTF-8 text.
+pub fn read_text_hashed(path: &Path) -> Result<(String, String), String> {
+    let (bytes, sha256) = read_hashed(path)?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        format!(
+            "not UTF-8 text (byte {}); save it as UTF-8 CSV",
+            e.utf8_error().valid_up_to() + 1
+        )
+    })?;
+    Ok((text, sha256))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

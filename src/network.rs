@@ -243,44 +243,33 @@ pub fn convert_all(net: &Network, out_dir: &Path, threads: usize, done: &(dyn Fn
         .collect()
 }
 
-/// The summary table: one row per station and day, with the daily summary's columns.
-pub fn summary_csv(outcomes: &[Outcome]) -> Vec<u8> {
-    let mut t = String::from(
-        "station,date,volume_m3,volume_measured_m3,volume_estimated_m3,volume_u95_m3,mean_m3s,min_m3s,max_m3s,measured_h,estimated_h,missing_h,complete_pct,rows\n",
-    );
-    let num = |v: f64| if v.is_finite() { format!("{v}") } else { String::new() };
+/// The summary table: one row per station and day, a `station` column before the daily
+/// summary's own columns (as `convert --daily` writes them).
+pub fn summary_csv(outcomes: &[Outcome]) -> polars::prelude::PolarsResult<Vec<u8>> {
+    use crate::series::output::{write_summary, Layout, TableFile};
+    let mut out: Vec<u8> = Vec::new();
     for o in outcomes {
         let Ok(r) = &o.result else { continue };
-        for d in &r.daily {
-            let _ = writeln!(
-                t,
-                "{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
-                o.id,
-                d.label,
-                num(d.volume_m3),
-                num(d.volume_measured_m3),
-                num(d.volume_estimated_m3),
-                num(d.volume_u95_m3),
-                num(d.mean_m3s),
-                num(d.min_m3s),
-                num(d.max_m3s),
-                num(d.measured_h),
-                num(d.estimated_h),
-                num(d.missing_h),
-                num(d.complete_pct),
-                d.rows
-            );
+        let mut one = Vec::new();
+        write_summary(&mut one, TableFile::Csv, "date", &r.daily, &Layout::default())?;
+        let mut lines = one.split(|b| *b == b'\n').filter(|l| !l.is_empty());
+        let header = lines.next().unwrap_or_default();
+        if out.is_empty() {
+            out.extend_from_slice(b"station,");
+            out.extend_from_slice(header);
+            out.push(b'\n');
+        }
+        for l in lines {
+            out.extend_from_slice(o.id.as_bytes());
+            out.push(b',');
+            out.extend_from_slice(l);
+            out.push(b'\n');
         }
     }
-    t.into_bytes()
+    Ok(out)
 }
 
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
+use crate::report::html_escape as esc;
 
 /// A month's cell of the overview: volume, completeness, measured share.
 fn month_cell(m: &PeriodRow) -> String {

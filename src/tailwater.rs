@@ -348,10 +348,7 @@ pub fn modular_limit_at(
     let s = model.structure();
     let g = s.gravity_m_s2;
     // a standard structure has its standard's modular limit unless the station gives one
-    let standard = match s.loss {
-        crate::rating::LossMethod::Standard(rule) => Some(rule.modular_limit().0),
-        _ => None,
-    };
+    let standard = s.standard().map(|rule| rule.modular_limit().0);
     let h2_max = match exit.fixed_modular_limit.or(standard) {
         Some(ml) => ml * p.energy_head_m,
         None => {

@@ -56,7 +56,7 @@ pub fn run(a: NetworkArgs) -> anyhow::Result<ExitCode> {
         .date
         .clone()
         .unwrap_or_else(|| chrono::Utc::now().format("%Y-%m-%d %H:%M UTC").to_string());
-    let summary = summary_csv(&outcomes);
+    let summary = summary_csv(&outcomes).context("the summary table")?;
     let overview = overview_html(&net, &outcomes, &generated);
     let (summary_path, overview_path) = (a.output.join("daily.csv"), a.output.join("overview.html"));
     emit_all(vec![

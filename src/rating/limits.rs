@@ -167,17 +167,9 @@ pub const LIMITS: &[Limit] = &[
     },
 ];
 
-/// The standard rule of a structure, if it has one.
-fn rule(s: &Structure) -> Option<StandardRule> {
-    match s.loss {
-        LossMethod::Standard(r) => Some(r),
-        _ => None,
-    }
-}
-
 /// `test` when the structure is rated by `which`, else not applicable.
 fn when(s: &Structure, which: fn(&StandardRule) -> bool, test: impl FnOnce() -> bool) -> Option<bool> {
-    rule(s).filter(which).map(|_| test())
+    s.standard().filter(which).map(|_| test())
 }
 
 fn is_rect_plate(r: &StandardRule) -> bool {
@@ -308,7 +300,7 @@ pub const STANDARD_LIMITS: &[Limit] = &[
         rule: "head Ha within the size's published free-flow range",
         source: "USBR Water Measurement Manual ch. 8, free-flow capacities of the standard sizes (from memory)",
         kind: Some(StructureKind::Parshall),
-        holds: |c| match rule(c.structure) {
+        holds: |c| match c.structure.standard() {
             Some(StandardRule::Parshall(size)) => {
                 let (lo, hi) = size.head_range_m();
                 Some((lo - EPS..=hi + EPS).contains(&c.point.head_m))

@@ -114,6 +114,15 @@ pub struct Structure {
 }
 
 impl Structure {
+    /// The standard's rule of a structure built to a standard (`None` for one rated by
+    /// critical-flow theory).
+    pub fn standard(&self) -> Option<StandardRule> {
+        match self.loss {
+            LossMethod::Standard(rule) => Some(rule),
+            _ => None,
+        }
+    }
+
     /// A rectangular control `width_m` wide and `length_m` long in a rectangular approach
     /// `approach_width_m` wide, the crest `sill_height_m` above the approach bed; α = 1, flume
     /// limits, standard gravity. The set-up of the references' rectangular examples.

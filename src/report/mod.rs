@@ -95,6 +95,14 @@ pub fn wrap(text: &str, width: usize) -> String {
     out
 }
 
+/// Text made safe inside HTML (the field sheet, the network overview).
+pub fn html_escape(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -13,10 +13,7 @@ use plotters::style::RGBColor;
 /// `[exit]`, or the energy balance over the exit with its expansion and loss coefficient.
 /// A standard structure without a given value states its standard's modular limit.
 pub fn exit_method(spec: &ExitSpec, exit: &Exit, structure: &crate::rating::Structure) -> String {
-    let standard = match structure.loss {
-        crate::rating::LossMethod::Standard(rule) => Some(rule.modular_limit()),
-        _ => None,
-    };
+    let standard = structure.standard().map(|rule| rule.modular_limit());
     match (exit.fixed_modular_limit, standard) {
         (Some(ml), _) => format!("{ml} as given in [exit] modular_limit"),
         (None, Some((0.0, source))) => format!("tailwater below the crest: {source}"),

@@ -106,21 +106,13 @@ pub struct Edits {
 impl Edits {
     /// Reads an edits file; times in the logger's `formats` are on the logger's clock `zone`.
     pub fn read(path: &Path, formats: &[TimeFormat], zone: &Zone) -> Result<Self, EditsError> {
-        use sha2::Digest;
         let err = |line: Option<usize>, problem: String| EditsError {
             path: path.display().to_string(),
             line,
             problem,
         };
-        let bytes = std::fs::read(path).map_err(|e| err(None, format!("cannot read it: {e}")))?;
-        let sha256 = format!("{:x}", sha2::Sha256::digest(&bytes));
-        let text = std::str::from_utf8(&bytes).map_err(|e| {
-            err(
-                None,
-                format!("not UTF-8 text (byte {}); save it as UTF-8 CSV", e.valid_up_to() + 1),
-            )
-        })?;
-        let mut edits = Self::parse(text, formats, zone).map_err(|(line, problem)| err(line, problem))?;
+        let (text, sha256) = crate::files::read_text_hashed(path).map_err(|p| err(None, p))?;
+        let mut edits = Self::parse(&text, formats, zone).map_err(|(line, problem)| err(line, problem))?;
         edits.sha256 = sha256;
         Ok(edits)
     }

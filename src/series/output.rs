@@ -392,7 +392,7 @@ impl ParquetSink {
 }
 
 /// A CSV writer in `style`; `datetime` the format of its time columns.
-fn csv_writer(file: File, style: CsvStyle, datetime: &str) -> CsvWriter<File> {
+fn csv_writer<W: std::io::Write>(file: W, style: CsvStyle, datetime: &str) -> CsvWriter<W> {
     let w = CsvWriter::new(file)
         .include_header(true)
         .with_datetime_format(Some(datetime.into()))
@@ -533,8 +533,8 @@ impl SeriesWriter {
 
 /// Writes summary rows to `file` as CSV or Parquet. `key` names the period column; `layout`
 /// gives the units of discharge and volume and the CSV style.
-pub fn write_summary(
-    file: File,
+pub fn write_summary<W: std::io::Write>(
+    file: W,
     format: TableFile,
     key: &str,
     rows: &[PeriodRow],

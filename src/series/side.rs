@@ -34,14 +34,12 @@ pub struct SideError {
 /// Reads a side file whose value column's name starts with `prefix` (`head`, `pressure`),
 /// hashing the same bytes it parses.
 pub fn read_side_file(path: &Path, prefix: &str, formats: &[TimeFormat], zone: &Zone) -> Result<SideFile, SideError> {
-    use sha2::Digest;
     let err = |line: Option<usize>, problem: String| SideError {
         path: path.display().to_string(),
         line,
         problem,
     };
-    let bytes = std::fs::read(path).map_err(|e| err(None, format!("cannot read it: {e}")))?;
-    let sha256 = format!("{:x}", sha2::Sha256::digest(&bytes));
+    let (bytes, sha256) = crate::files::read_hashed(path).map_err(|p| err(None, p))?;
     let mut r = csv::ReaderBuilder::new().flexible(true).from_reader(&bytes[..]);
     let headers = r.headers().map_err(|_| err(Some(1), "no header line".into()))?.clone();
     let ti = headers.iter().position(|h| h.trim() == "time").ok_or_else(|| {

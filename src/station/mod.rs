@@ -138,10 +138,7 @@ impl HeadRange {
             crate::rating::StructureKind::Weir => {
                 (0.06f64.max(0.07 * l), (0.57 * l).min(1.5 * structure.sill_height_m))
             }
-            _ => match structure.loss {
-                crate::rating::LossMethod::Standard(rule) => rule.default_head_range_m(structure),
-                _ => return None,
-            },
+            _ => structure.standard()?.default_head_range_m(structure),
         };
         (lo < hi).then_some(Self {
             min_head_m: lo,

@@ -126,7 +126,7 @@ fn parshall_sizes_match_their_published_equations() {
         let q = q_at(&s, ha_ft * FT) / CFS;
         assert!(rel(q, q_cfs) < 1e-6, "{size} at {ha_ft} ft: {q} ft³/s");
     }
-    // Merkley 2005 (Utah State University, lecture "Flumes for open-channel flow measurement"):
+    // Merkley 2005 (Utah State University course notes, "Flumes for open-channel flow measurement"):
     // a 2 ft flume passes 0.75 m³/s at hu = 0.66 m with Q = 1.429·hu^1.55 (SI), within 0.1 %
     let s = parshall(dir.path(), "2ft");
     assert!(rel(q_at(&s, 0.66), 0.75) < 1e-3);

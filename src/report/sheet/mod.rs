@@ -92,12 +92,7 @@ pub struct Sheet {
     pub limits: Vec<(String, String)>,
 }
 
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
+use super::html_escape as esc;
 
 impl Sheet {
     /// The page as HTML.
