@@ -15,11 +15,7 @@
 # /tmp/flumerate-bench), a folder this script creates.
 set -euo pipefail
 cd "$(dirname "$0")/../.."
-rows=${1:-10000000}
-work=${BENCH_DIR:-/tmp/flumerate-bench}
-mkdir -p "$work"
-data="$work/logger-$rows.csv"
-[ -f "$data" ] || python3 benches/convert/make_logger.py "$rows" "$data"
+. benches/convert/data.sh "${1:-10000000}"
 python3 -c "import polars, pandas, numpy, pyarrow" 2>/dev/null || pip install --quiet polars pandas numpy pyarrow
 
 cargo build --release --locked --quiet --bin flumerate --example polars_read_only

@@ -11,11 +11,7 @@
 # Outputs go to $BENCH_DIR (default /tmp/flumerate-bench), a folder this script creates.
 set -euo pipefail
 cd "$(dirname "$0")/../.."
-rows=${1:-10000000}
-work=${BENCH_DIR:-/tmp/flumerate-bench}
-mkdir -p "$work"
-data="$work/logger-$rows.csv"
-[ -f "$data" ] || python3 benches/convert/make_logger.py "$rows" "$data"
+. benches/convert/data.sh "${1:-10000000}"
 cargo build --release --locked --quiet --bin flumerate
 bin="${CARGO_TARGET_DIR:-target}/release/flumerate"
 edits="$work/bench-edits.csv"
