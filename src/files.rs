@@ -366,6 +366,91 @@ impl Drop for OutputSet {
     }
 }
 
+/// Bytes written between two requests to the disk to catch up (see [`WriteBehind`]); 4 KiB in
+/// unit tests, so that their small files are flushed behind too.
+const WRITE_BEHIND_BYTES: u64 = if cfg!(test) { 4 << 10 } else { 64 << 20 };
+
+/// A large output file whose data go to disk while it is still being written: every 64 MiB a
+/// thread of its own flushes what has been written so far (`fdatasync`), so that the flush before
+/// the output is renamed into place ([`OutputSet::commit`]) has little left to wait for. The first
+/// failure of those flushes is kept and returned by [`WriteBehind::finish`]: a write error must
+/// not be lost, since a later flush through another handle may not report it again.
+pub struct WriteBehind {
+    file: File,
+    unsynced: u64,
+    syncer: Option<(
+        std::sync::mpsc::SyncSender<()>,
+        std::thread::JoinHandle<std::io::Result<()>>,
+    )>,
+}
+
+impl WriteBehind {
+    /// Writes into `file`, flushing behind the writing when it is a regular file.
+    pub fn new(file: File) -> Self {
+        let syncer = file
+            .metadata()
+            .ok()
+            .filter(std::fs::Metadata::is_file)
+            .and_then(|_| file.try_clone().ok())
+            .map(|clone| {
+                // one request waits at most: a request made while one is waiting adds nothing
+                let (tx, rx) = std::sync::mpsc::sync_channel::<()>(1);
+                let handle = std::thread::spawn(move || {
+                    for () in rx {
+                        clone.sync_data()?;
+                    }
+                    Ok(())
+                });
+                (tx, handle)
+            });
+        Self {
+            file,
+            unsynced: 0,
+            syncer,
+        }
+    }
+
+    /// Writes into `file` without flushing behind (for a writer that cannot hand the file back
+    /// to [`Self::finish`]).
+    pub fn plain(file: File) -> Self {
+        Self {
+            file,
+            unsynced: 0,
+            syncer: None,
+        }
+    }
+
+    /// Waits for the flushes behind the writing; the first that failed is the error.
+    pub fn finish(mut self) -> std::io::Result<File> {
+        if let Some((tx, handle)) = self.syncer.take() {
+            drop(tx);
+            handle
+                .join()
+                .map_err(|_| std::io::Error::other("the thread flushing the output stopped"))??;
+        }
+        Ok(self.file)
+    }
+}
+
+impl Write for WriteBehind {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.file.write(buf)?;
+        self.unsynced += n as u64;
+        if self.unsynced >= WRITE_BEHIND_BYTES {
+            self.unsynced = 0;
+            if let Some((tx, _)) = &self.syncer {
+                // full: a flush is already asked for; gone: a flush failed, which finish reports
+                let _ = tx.try_send(());
+            }
+        }
+        Ok(n)
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.file.flush()
+    }
+}
+
 /// A small input file (an edits log, gaugings, a side file) read whole, with the SHA-256 of the
 /// same bytes for the provenance. The error is in words, for the caller's own error type.
 pub fn read_hashed(path: &Path) -> Result<(Vec<u8>, String), String> {
@@ -390,6 +475,22 @@ pub fn read_text_hashed(path: &Path) -> Result<(String, String), String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Bytes written through [`WriteBehind`] arrive whole and in order while it flushes behind
+    /// (common practice, no source: the writer's own contract).
+    #[test]
+    fn write_behind_keeps_every_byte() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = dir.path().join("out.bin");
+        let want: Vec<u8> = (0..300_000u32).map(|i| (i % 251) as u8).collect();
+        let mut w = WriteBehind::new(File::create(&p).expect("create"));
+        assert!(w.syncer.is_some(), "a regular file is flushed behind");
+        for piece in want.chunks(1000) {
+            w.write_all(piece).expect("write");
+        }
+        drop(w.finish().expect("finish"));
+        assert_eq!(std::fs::read(&p).expect("read"), want);
+    }
 
     /// A replaced output keeps the permissions it had (a temporary is created 0600).
     #[test]

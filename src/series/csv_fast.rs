@@ -5,7 +5,7 @@
 //! times as empty fields, times as chrono's `%Y-%m-%dT%H:%M:%S%:z` in the output zone (years
 //! outside 1–9999 and offsets with seconds are handed to chrono itself), integers by itoa.
 
-use std::fs::File;
+use crate::files::WriteBehind;
 use std::io::{BufWriter, Write};
 
 use super::time::{civil_from_days, Zone, NO_TIME};
@@ -159,14 +159,14 @@ fn chrono_time(t: i64, zone: OutZone, buf: &mut Vec<u8>) {
 
 /// A CSV file of converted rows in the standard style.
 pub struct FastCsv {
-    out: BufWriter<File>,
+    out: BufWriter<WriteBehind>,
     zone: OutZone,
     threads: usize,
 }
 
 impl FastCsv {
     /// A writer into `file` with the header `names`; times in `zone`.
-    pub fn new(file: File, names: &[String], zone: OutZone) -> std::io::Result<Self> {
+    pub fn new(file: WriteBehind, names: &[String], zone: OutZone) -> std::io::Result<Self> {
         let mut out = BufWriter::with_capacity(1 << 20, file);
         out.write_all(names.join(",").as_bytes())?;
         out.write_all(b"\n")?;
@@ -206,9 +206,13 @@ impl FastCsv {
         Ok(())
     }
 
-    /// Flushes the file.
-    pub fn finish(mut self) -> std::io::Result<()> {
-        self.out.flush()
+    /// Writes what is buffered and waits for the flushes behind the writing.
+    pub fn finish(self) -> std::io::Result<()> {
+        self.out
+            .into_inner()
+            .map_err(std::io::IntoInnerError::into_error)?
+            .finish()?;
+        Ok(())
     }
 }
 

@@ -3,7 +3,7 @@
 //! when the whole run has succeeded).
 
 use std::fs::File;
-use std::io::{BufWriter, Write};
+use std::io::BufWriter;
 use std::path::Path;
 
 use polars::prelude::*;
@@ -21,6 +21,7 @@ use polars_parquet::write::{
 
 use super::convert::{Chunk, Flag, PeriodRow};
 use super::time::{Zone, NO_TIME};
+use crate::files::WriteBehind;
 use crate::units::{FlowUnit, VolumeUnit};
 
 /// Output file formats.
@@ -269,7 +270,7 @@ fn opt(name: &str, v: Vec<f64>) -> Column {
 /// twelve-word dictionary, floats plain. No compression and no column statistics: on a logger
 /// series they shrink the file by a few per cent at several times the cost.
 struct ParquetSink {
-    writer: FileWriter<BufWriter<File>>,
+    writer: FileWriter<BufWriter<WriteBehind>>,
     types: Vec<ParquetType>,
     encodings: Vec<Encoding>,
     options: WriteOptions,
@@ -278,7 +279,7 @@ struct ParquetSink {
 }
 
 impl ParquetSink {
-    fn new(file: File, tz: Option<&TimeZone>, layout: &Layout) -> PolarsResult<Self> {
+    fn new(file: WriteBehind, tz: Option<&TimeZone>, layout: &Layout) -> PolarsResult<Self> {
         let time_type = ArrowDataType::Timestamp(ArrowTimeUnit::Millisecond, tz.map(|z| z.as_str().into()));
         let mut fields = vec![ArrowField::new("time".into(), time_type.clone(), true)];
         let mut encodings = vec![Encoding::DeltaBinaryPacked];
@@ -385,8 +386,10 @@ impl ParquetSink {
 
     fn finish(mut self) -> PolarsResult<()> {
         self.writer.end(None)?;
-        let mut file = self.writer.into_inner();
-        file.flush()?;
+        let file = self.writer.into_inner();
+        file.into_inner()
+            .map_err(std::io::IntoInnerError::into_error)?
+            .finish()?;
         Ok(())
     }
 }
@@ -427,7 +430,7 @@ impl SeriesWriter {
                     .map(|n| n.to_string())
                     .collect();
                 let zone = super::csv_fast::OutZone::of(&layout.zone);
-                Inner::FastCsv(super::csv_fast::FastCsv::new(file, &names, zone)?)
+                Inner::FastCsv(super::csv_fast::FastCsv::new(WriteBehind::new(file), &names, zone)?)
             }
             TableFile::Csv => {
                 let datetime = match layout.style {
@@ -436,7 +439,11 @@ impl SeriesWriter {
                 };
                 Inner::Csv(csv_writer(file, layout.style, datetime).batched(&series_schema(tz.clone(), &layout))?)
             }
-            TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(file, tz.as_ref(), &layout)?)),
+            TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(
+                WriteBehind::new(file),
+                tz.as_ref(),
+                &layout,
+            )?)),
         };
         Ok(Self {
             inner,

@@ -257,16 +257,31 @@ impl RatingCache {
     }
 }
 
-/// Phase times on standard error when FLUMERATE_TIMING is set (for benchmarking; DEVELOPERS.md).
-struct Timer(Option<std::time::Instant>);
+/// Phase times on standard error when FLUMERATE_TIMING is set (for benchmarking; DEVELOPERS.md):
+/// the wall time, the processor time of all threads (Linux; user and system), and the peak
+/// resident memory so far (Linux).
+struct Timer(Option<(std::time::Instant, [f64; 2])>);
 
 impl Timer {
     fn new() -> Self {
-        Self(std::env::var_os("FLUMERATE_TIMING").map(|_| std::time::Instant::now()))
+        Self(std::env::var_os("FLUMERATE_TIMING").map(|_| (std::time::Instant::now(), Self::cpu_s())))
     }
+
+    /// User and system processor time of the process so far, from /proc/self/stat (clock ticks
+    /// of 1/100 s).
+    fn cpu_s() -> [f64; 2] {
+        let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+        // fields after the command name, which is in parentheses: utime and stime are 12th and 13th
+        let rest = stat.rsplit_once(')').map_or("", |r| r.1);
+        let mut ticks = rest
+            .split_whitespace()
+            .skip(11)
+            .map(|t| t.parse::<f64>().unwrap_or(0.0) / 100.0);
+        [ticks.next().unwrap_or(0.0), ticks.next().unwrap_or(0.0)]
+    }
+
     fn mark(&mut self, what: &str) {
-        if let Some(t) = self.0 {
-            // the peak resident memory so far (Linux), for the benchmarks' memory budget
+        if let Some((t, cpu)) = self.0 {
             let peak = std::fs::read_to_string("/proc/self/status")
                 .ok()
                 .and_then(|s| {
@@ -275,11 +290,14 @@ impl Timer {
                         .map(|l| l[6..].trim().to_string())
                 })
                 .unwrap_or_default();
+            let now = Self::cpu_s();
             eprintln!(
-                "timing: {what:<24} {:>8.3} s  (peak so far {peak})",
-                t.elapsed().as_secs_f64()
+                "timing: {what:<24} {:>8.3} s, cpu {:>5.2} s user + {:>5.2} s system  (peak so far {peak})",
+                t.elapsed().as_secs_f64(),
+                now[0] - cpu[0],
+                now[1] - cpu[1]
             );
-            self.0 = Some(std::time::Instant::now());
+            self.0 = Some((std::time::Instant::now(), now));
         }
     }
 }

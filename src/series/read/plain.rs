@@ -38,20 +38,18 @@ pub(super) fn parse_block(
     rows: Rows<'_>,
 ) -> Option<Vec<Share>> {
     let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
-    // small blocks on one thread (64 bytes in unit tests, so that their blocks are split)
-    let threads = if block.len() < if cfg!(test) { 64 } else { 256 << 10 } {
-        1
-    } else {
-        threads
-    };
-    // pieces of whole lines, about equal in bytes, with their first row
-    let mut pieces: Vec<(&[u8], usize)> = Vec::with_capacity(threads);
+    // pieces of at least 64 KiB (64 bytes in unit tests, so that their blocks are split), four
+    // per thread: a thread slowed by the file's reading and hashing takes fewer of them
+    let min_piece = if cfg!(test) { 64 } else { 64 << 10 };
+    let n_pieces = (block.len() / min_piece).clamp(1, 4 * threads);
+    let threads = threads.min(n_pieces);
+    let mut pieces: Vec<(&[u8], usize)> = Vec::with_capacity(n_pieces);
     let (mut at, mut row) = (0usize, 0usize);
-    for i in 1..=threads {
-        let end = if i == threads {
+    for i in 1..=n_pieces {
+        let end = if i == n_pieces {
             block.len()
         } else {
-            let target = (block.len() * i / threads).max(at);
+            let target = (block.len() * i / n_pieces).max(at);
             memchr::memchr(b'\n', &block[target..]).map_or(block.len(), |k| target + k + 1)
         };
         if end > at {
@@ -80,6 +78,7 @@ pub(super) fn parse_block(
         }
         (lines, wall) = (l_rest, w_rest);
         jobs.push((
+            k,
             piece,
             from,
             Rows {
@@ -89,20 +88,35 @@ pub(super) fn parse_block(
             },
         ));
     }
-    if jobs.len() == 1 {
-        let (piece, from, rows) = jobs.pop().expect("one job");
-        return parse_piece(piece, from, layout, s, first_line, rows).map(|sh| vec![sh]);
-    }
-    std::thread::scope(|scope| {
-        let handles: Vec<_> = jobs
-            .into_iter()
-            .map(|(piece, from, rows)| scope.spawn(move || parse_piece(piece, from, layout, s, first_line, rows)))
-            .collect();
-        handles
-            .into_iter()
-            .map(|h| h.join().expect("plain parsing does not panic"))
-            .collect()
-    })
+    let run = |(k, piece, from, rows)| (k, parse_piece(piece, from, layout, s, first_line, rows));
+    let mut done: Vec<(usize, Option<Share>)> = if threads == 1 {
+        jobs.into_iter().map(run).collect()
+    } else {
+        // each thread takes the next piece left until none is
+        jobs.reverse();
+        let jobs = std::sync::Mutex::new(jobs);
+        let next = || jobs.lock().unwrap_or_else(std::sync::PoisonError::into_inner).pop();
+        std::thread::scope(|scope| {
+            let handles: Vec<_> = (0..threads)
+                .map(|_| {
+                    scope.spawn(|| {
+                        let mut out = Vec::new();
+                        while let Some(job) = next() {
+                            out.push(run(job));
+                        }
+                        out
+                    })
+                })
+                .collect();
+            handles
+                .into_iter()
+                .flat_map(|h| h.join().expect("plain parsing does not panic"))
+                .collect()
+        })
+    };
+    // the pieces' findings in file order (the rows they list are then in order)
+    done.sort_unstable_by_key(|d| d.0);
+    done.into_iter().map(|d| d.1).collect()
 }
 
 /// One thread's piece of whole lines, its first row being row `from` of the block.
@@ -186,7 +200,11 @@ impl LineReader<'_, '_> {
         self.rows.lines[k] = self.first_line + at;
         let (a, b) = bounds[self.layout.time_idx];
         // as polars hands it over: invalid bytes replaced
-        let text = String::from_utf8_lossy(&self.piece[a..b]);
+        let bytes = &self.piece[a..b];
+        let text = match std::str::from_utf8(bytes) {
+            Ok(t) => std::borrow::Cow::Borrowed(t),
+            Err(_) => String::from_utf8_lossy(bytes),
+        };
         let wall = parse_any_cached(&self.s.formats, &text, self.caches);
         self.rows.wall[k] = wall.unwrap_or_else(|| {
             self.share.empty_times += usize::from(text.trim().is_empty());
