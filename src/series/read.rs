@@ -418,7 +418,7 @@ fn spawn_reader(
     std::sync::mpsc::Receiver<std::io::Result<Block>>,
     std::thread::JoinHandle<String>,
 ) {
-    let (tx, rx) = std::sync::mpsc::sync_channel::<std::io::Result<Block>>(4);
+    let (tx, rx) = std::sync::mpsc::sync_channel::<std::io::Result<Block>>(1);
     let handle = std::thread::spawn(move || {
         use sha2::Digest;
         let mut hash = sha2::Sha256::new();
