@@ -320,12 +320,17 @@ const NO_HEAD: u8 = 255;
 /// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
 pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) -> Screened {
     let mut s = Screened {
-        codes: (0..n)
-            .map(|i| if rows.head.get(i).is_finite() { 0 } else { NO_HEAD })
-            .collect(),
+        codes: vec![0; n],
         edit_rows: vec![0; edits.edits.len()],
         ..Default::default()
     };
+    for_parts(&mut s.codes, |from, part| {
+        for (j, c) in part.iter_mut().enumerate() {
+            if !rows.head.get(from + j).is_finite() {
+                *c = NO_HEAD;
+            }
+        }
+    });
     apply_edits(rows.utc, edits, &mut s);
     if spec.enabled {
         out_of_water(rows, spec, &mut s.codes);
@@ -333,18 +338,64 @@ pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) ->
         flat(rows, spec, &mut s.codes);
     }
     fill_gaps(rows, edits, spec, &mut s);
-    for c in &mut s.codes {
-        if *c == NO_HEAD {
-            *c = 0;
+    for_parts(&mut s.codes, |_, part| {
+        for c in part {
+            if *c == NO_HEAD {
+                *c = 0;
+            }
         }
-    }
-    for p in 0..rows.len() {
-        let i = rows.row(p);
-        if rows.utc[i] != NO_TIME {
-            s.screened[usize::from(s.codes[i])] += 1;
+    });
+    // rows per decision, counted by position on all cores
+    let codes = &s.codes;
+    let counts = std::sync::Mutex::new([0usize; 6]);
+    for_ranges(rows.len(), |range| {
+        let mut mine = [0usize; 6];
+        for p in range {
+            let i = rows.row(p);
+            if rows.utc[i] != NO_TIME {
+                mine[usize::from(codes[i])] += 1;
+            }
         }
-    }
+        let mut all = counts.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        for (a, m) in all.iter_mut().zip(mine) {
+            *a += m;
+        }
+    });
+    s.screened = counts.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
     s
+}
+
+/// The cores' shares of `0..n`: one below 64 Ki.
+fn shares(n: usize) -> usize {
+    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    if n < 1 << 16 {
+        n.max(1)
+    } else {
+        n.div_ceil(threads)
+    }
+}
+
+/// Runs `f` on parts of `0..n` on all cores.
+fn for_ranges(n: usize, f: impl Fn(std::ops::Range<usize>) + Sync) {
+    let per = shares(n);
+    std::thread::scope(|scope| {
+        for from in (0..n).step_by(per) {
+            let f = &f;
+            scope.spawn(move || f(from..(from + per).min(n)));
+        }
+    });
+}
+
+/// Runs `f` on parts of `data` on all cores; `f` gets each part with the index of its first
+/// entry.
+fn for_parts<T: Send>(data: &mut [T], f: impl Fn(usize, &mut [T]) + Sync) {
+    let per = shares(data.len());
+    std::thread::scope(|scope| {
+        for (k, part) in data.chunks_mut(per).enumerate() {
+            let f = &f;
+            scope.spawn(move || f(k * per, part));
+        }
+    });
 }
 
 /// `exclude` and `fill` windows mark their rows; every edit counts the rows it touches.
