@@ -592,6 +592,7 @@ impl<'a> Pipeline<'a> {
             raw,
             &rating.inputs,
             order.as_deref(),
+            out.plot.is_some(),
             // a closed queue means the writer stopped on an error, reported below
             |chunk| tx.send(chunk).is_ok(),
             |done| progress.converting(done, total),
@@ -679,6 +680,7 @@ impl<'a> Pipeline<'a> {
             &raw,
             &rating.inputs,
             order.as_deref(),
+            false,
             |chunk| {
                 rows.append(chunk);
                 true

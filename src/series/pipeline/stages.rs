@@ -339,15 +339,15 @@ pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, 
 }
 
 /// One core's share of a chunk: the rows converted, with their own counts, summaries and
-/// hydrograph buckets (merged by the caller in order).
+/// hydrograph buckets (merged by the caller in order; filled only when `buckets` is given).
 fn convert_part(
     conv: &Conversion,
     times: &Times,
     raw: &RawSeries,
     inputs: &Inputs,
     part: &[usize],
-    mut buckets: HydroBuckets,
-) -> (Chunk, Counts, Summaries, HydroBuckets) {
+    mut buckets: Option<HydroBuckets>,
+) -> (Chunk, Counts, Summaries, Option<HydroBuckets>) {
     let (mut c, mut sm) = (Counts::default(), Summaries::default());
     let chunk = conv.convert_rows_in_force(
         part,
@@ -359,7 +359,10 @@ fn convert_part(
         &mut c,
         &mut sm,
     );
-    buckets.add_rows(chunk.time_ms.len(), |k| BucketRow {
+    let Some(b) = buckets.as_mut() else {
+        return (chunk, c, sm, buckets);
+    };
+    b.add_rows(chunk.time_ms.len(), |k| BucketRow {
         t_ms: chunk.time_ms[k],
         q: chunk.discharge_m3s[k],
         lo: chunk.low_m3s[k],
@@ -379,13 +382,16 @@ fn convert_part(
 /// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, each chunk on all cores; hands every
 /// finished chunk to `emit` in output order (which returns false to stop: a writer that failed)
 /// and reports progress in rows. Each core's part keeps its own counts and summaries, merged in
-/// order, so the result does not depend on the number of cores.
+/// order, so the result does not depend on the number of cores. The hydrograph's buckets are
+/// filled only when `hydrograph` is asked for (they stay empty otherwise).
+#[allow(clippy::too_many_arguments)]
 pub fn convert_all(
     conv: &Conversion,
     times: &Times,
     raw: &RawSeries,
     inputs: &Inputs,
     order: Option<&[u32]>,
+    hydrograph: bool,
     mut emit: impl FnMut(Chunk) -> bool,
     mut progress: impl FnMut(u64),
 ) -> Converted {
@@ -414,7 +420,7 @@ pub fn convert_all(
             let handles: Vec<_> = idx
                 .chunks(per)
                 .map(|part| {
-                    let b = empty.clone();
+                    let b = hydrograph.then(|| empty.clone());
                     scope.spawn(move || convert_part(conv, times, raw, inputs, part, b))
                 })
                 .collect();
@@ -427,7 +433,9 @@ pub fn convert_all(
         for (chunk, c, sm, b) in parts {
             out.counts.merge(c);
             out.summaries.merge(sm);
-            out.buckets.merge(&b);
+            if let Some(b) = b {
+                out.buckets.merge(&b);
+            }
             go_on &= emit(chunk);
         }
         progress(end as u64);
@@ -618,6 +626,7 @@ mod tests {
             &r,
             &rt.inputs,
             None,
+            false,
             |ch| {
                 rows.append(ch);
                 true
@@ -634,6 +643,7 @@ mod tests {
             &r,
             &rt.inputs,
             Some(&order),
+            false,
             |ch| {
                 sorted.append(ch);
                 true
