@@ -1,12 +1,15 @@
-//! Reading a logger export with polars, block by block, without losing a line.
+//! Reading a logger export, block by block, without losing a line.
 //!
-//! The file is read in blocks of whole lines; polars splits each block into fields (quoting off,
-//! ragged lines tolerated), reads the value columns as numbers and hands the time column over as
-//! text, which flumerate parses with the station's formats. With quoting off, polars returns
-//! exactly one row per line, so row *i* of a block is line *first + i* of the file; flumerate
-//! checks that count for every block and stops with an error rather than misalign rows.
+//! The file is read in blocks of whole lines. A block of an unquoted file with a decimal point
+//! whose every line has the header's number of fields (the usual export) is split by flumerate
+//! itself, times and values read in the same pass ([`plain`]). Any other block goes to polars,
+//! which splits it into fields (quoting off, ragged lines tolerated), reads the value columns as
+//! numbers and hands the time column over as text, which flumerate parses with the station's
+//! formats. With quoting off, polars returns exactly one row per line, so row *i* of a block is
+//! line *first + i* of the file; flumerate checks that count for every block and stops with an
+//! error rather than misalign rows.
 //!
-//! Wherever polars has no finite number for a value (an empty field, a sentinel, text, or a
+//! Wherever either path has no finite number for a value (an empty field, a sentinel, text, or a
 //! number equal to a sentinel's), flumerate reads that field again from the line's own bytes with
 //! its own rule ([`parse_value`]), so every field is judged the same way whichever path it took.
 //! A missing-value marker matches by text and, when it is a number, by value (`-9999` also
