@@ -2,10 +2,10 @@
 //!
 //! The file is read in blocks of whole lines. A block of an unquoted file with a decimal point
 //! whose every line has the header's number of fields (the usual export) is split by flumerate
-//! itself, times and values read in the same pass ([`plain`]). Any other block goes to polars,
-//! which splits it into fields (quoting off, ragged lines tolerated), reads the value columns as
-//! numbers and hands the time column over as text, which flumerate parses with the station's
-//! formats. With quoting off, polars returns exactly one row per line, so row *i* of a block is
+//! itself, times and values read in the same pass (src/series/read/plain.rs). Any other block
+//! goes to polars, which splits it into fields (quoting off, ragged lines tolerated), reads the
+//! value columns as numbers and hands the time column over as text, which flumerate parses with
+//! the station's formats. With quoting off, polars returns exactly one row per line, so row *i* of a block is
 //! line *first + i* of the file; flumerate checks that count for every block and stops with an
 //! error rather than misalign rows.
 //!
