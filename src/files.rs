@@ -410,16 +410,6 @@ impl WriteBehind {
         }
     }
 
-    /// Writes into `file` without flushing behind (for a writer that cannot hand the file back
-    /// to [`Self::finish`]).
-    pub fn plain(file: File) -> Self {
-        Self {
-            file,
-            unsynced: 0,
-            syncer: None,
-        }
-    }
-
     /// Waits for the flushes behind the writing; the first that failed is the error.
     pub fn finish(mut self) -> std::io::Result<File> {
         if let Some((tx, handle)) = self.syncer.take() {

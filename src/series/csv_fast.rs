@@ -173,7 +173,7 @@ impl FastCsv {
         Ok(Self {
             out,
             zone,
-            threads: std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 8),
+            threads: super::parallel::cores(),
         })
     }
 

@@ -5,6 +5,7 @@ pub mod csv_fast;
 pub mod dense;
 pub mod edits;
 pub mod output;
+pub mod parallel;
 pub mod pipeline;
 pub mod read;
 pub mod screen;

@@ -5,9 +5,9 @@
 //! itself, times and values read in the same pass (src/series/read/plain.rs). Any other block
 //! goes to polars, which splits it into fields (quoting off, ragged lines tolerated), reads the
 //! value columns as numbers and hands the time column over as text, which flumerate parses with
-//! the station's formats. With quoting off, polars returns exactly one row per line, so row *i* of a block is
-//! line *first + i* of the file; flumerate checks that count for every block and stops with an
-//! error rather than misalign rows.
+//! the station's formats. With quoting off, polars returns exactly one row per line, so row *i*
+//! of a block is line *first + i* of the file; flumerate checks that count for every block and
+//! stops with an error rather than misalign rows.
 //!
 //! Wherever either path has no finite number for a value (an empty field, a sentinel, text, or a
 //! number equal to a sentinel's), flumerate reads that field again from the line's own bytes with
@@ -912,7 +912,8 @@ fn take_plain_block(
     out: &mut RawSeries,
     filled: &mut usize,
 ) -> Option<usize> {
-    let n_lines = line_count(block);
+    let pieces = plain::Pieces::of(block);
+    let n_lines = pieces.rows();
     let base = *filled;
     let top = base + n_lines;
     ensure_room(out, top);
@@ -921,7 +922,7 @@ fn take_plain_block(
         wall: &mut out.wall_ms[base..top],
         values: out.values.iter_mut().map(|v| &mut v[base..top]).collect(),
     };
-    let shares = plain::parse_block(block, layout, s, (before + 1) as u32, rows)?;
+    let shares = plain::parse_block(&pieces, layout, s, (before + 1) as u32, rows)?;
     *filled = top;
     settle_block(block, n_lines, shares, &[], before, layout, s, out, filled);
     Some(before + n_lines)
@@ -1185,7 +1186,7 @@ fn parse_rows(
     values_out: Vec<&mut [f64]>,
 ) -> Vec<Share> {
     let n = wall.len();
-    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    let threads = super::parallel::cores();
     let per = if threads > 1 && n >= 20_000 {
         n.div_ceil(threads)
     } else {

@@ -24,6 +24,7 @@
 use std::collections::HashMap;
 
 use super::edits::{EditAction, Edits};
+use super::parallel::{for_parts, for_ranges};
 use super::time::NO_TIME;
 
 /// The smallest half-width (m) of the interpolation error of a filled head: a few millimetres
@@ -363,39 +364,6 @@ pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) ->
     });
     s.screened = counts.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
     s
-}
-
-/// The cores' shares of `0..n`: one below 64 Ki.
-fn shares(n: usize) -> usize {
-    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
-    if n < 1 << 16 {
-        n.max(1)
-    } else {
-        n.div_ceil(threads)
-    }
-}
-
-/// Runs `f` on parts of `0..n` on all cores.
-fn for_ranges(n: usize, f: impl Fn(std::ops::Range<usize>) + Sync) {
-    let per = shares(n);
-    std::thread::scope(|scope| {
-        for from in (0..n).step_by(per) {
-            let f = &f;
-            scope.spawn(move || f(from..(from + per).min(n)));
-        }
-    });
-}
-
-/// Runs `f` on parts of `data` on all cores; `f` gets each part with the index of its first
-/// entry.
-fn for_parts<T: Send>(data: &mut [T], f: impl Fn(usize, &mut [T]) + Sync) {
-    let per = shares(data.len());
-    std::thread::scope(|scope| {
-        for (k, part) in data.chunks_mut(per).enumerate() {
-            let f = &f;
-            scope.spawn(move || f(k * per, part));
-        }
-    });
 }
 
 /// `exclude` and `fill` windows mark their rows; every edit counts the rows it touches.

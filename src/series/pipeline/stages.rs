@@ -4,6 +4,7 @@
 use super::super::convert::{Chunk, Conversion, Counts, Plausible, StageSource, Summaries};
 use super::super::correct::{drift_points, drift_warnings, pascals_per, usable_drift, DriftPoint, TimeSeries};
 use super::super::dense::DenseRating;
+use super::super::parallel::{cores, for_parts};
 use super::super::read::RawSeries;
 use super::super::screen::{Heads, Rows, Screened, ScreeningSpec, Sensor};
 use super::super::settings::LoggerSettings;
@@ -278,36 +279,33 @@ pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningS
         vec![f64::NAN; n]
     };
     let mut air = vec![0u8; n];
-    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
-    let per = n.div_ceil(threads).max(1);
-    std::thread::scope(|scope| {
-        if simple.is_some() {
-            for (k, a) in air.chunks_mut(per).enumerate() {
+    if simple.is_some() {
+        for_parts(&mut air, |from, part| {
+            for (j, a) in part.iter_mut().enumerate() {
+                let i = from + j;
+                if utc[i] != NO_TIME {
+                    *a = sensor.air_bits(conv.level(i, utc[i], &raw.values).stage_m, spec);
+                }
+            }
+        });
+    } else {
+        let per = n.div_ceil(cores()).max(1);
+        std::thread::scope(|scope| {
+            for (k, (h, a)) in head.chunks_mut(per).zip(air.chunks_mut(per)).enumerate() {
                 scope.spawn(move || {
-                    for (j, a) in a.iter_mut().enumerate() {
+                    for (j, (h, a)) in h.iter_mut().zip(a.iter_mut()).enumerate() {
                         let i = k * per + j;
-                        if utc[i] != NO_TIME {
-                            *a = sensor.air_bits(conv.level(i, utc[i], &raw.values).stage_m, spec);
+                        if utc[i] == NO_TIME {
+                            continue;
                         }
+                        let lv = conv.level(i, utc[i], &raw.values);
+                        *h = lv.head_m;
+                        *a = sensor.air_bits(lv.stage_m, spec);
                     }
                 });
             }
-            return;
-        }
-        for (k, (h, a)) in head.chunks_mut(per).zip(air.chunks_mut(per)).enumerate() {
-            scope.spawn(move || {
-                for (j, (h, a)) in h.iter_mut().zip(a.iter_mut()).enumerate() {
-                    let i = k * per + j;
-                    if utc[i] == NO_TIME {
-                        continue;
-                    }
-                    let lv = conv.level(i, utc[i], &raw.values);
-                    *h = lv.head_m;
-                    *a = sensor.air_bits(lv.stage_m, spec);
-                }
-            });
-        }
-    });
+        });
+    }
     let order = conv.timeline.sorted_order();
     let rows = Rows {
         order,
@@ -407,7 +405,7 @@ pub fn convert_all(
         summaries: Summaries::default(),
         buckets: empty.clone(),
     };
-    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
+    let threads = cores();
     let mut start = 0;
     while start < n {
         let end = (start + CHUNK_ROWS).min(n);
@@ -551,12 +549,18 @@ mod tests {
         }
     }
 
-    #[test]
-    fn heads_from_the_stage_equal_the_conversions_bit_for_bit() {
+    /// The test station with its logger settings and its rating stage.
+    fn rated_station() -> (Station, LoggerSettings, RatingStage) {
         let st = station();
         let s = settings(&st);
         let model = RatingModel::new(st.structure.clone()).expect("model");
         let rt = rating(&st, &model).expect("rating");
+        (st, s, rt)
+    }
+
+    #[test]
+    fn heads_from_the_stage_equal_the_conversions_bit_for_bit() {
+        let (st, s, rt) = rated_station();
         // awkward stages: at the zero (a zero head), −0.0, missing, below and above what the
         // logger can read, tiny and ordinary steps
         let stages = [
@@ -601,10 +605,7 @@ mod tests {
 
     #[test]
     fn drift_and_conversion_of_every_row() {
-        let st = station();
-        let s = settings(&st);
-        let model = RatingModel::new(st.structure.clone()).expect("model");
-        let rt = rating(&st, &model).expect("rating");
+        let (st, s, rt) = rated_station();
         let texts: Vec<String> = (0..8).map(|k| format!("2026-01-01 {:02}:00", k)).collect();
         let refs: Vec<&str> = texts.iter().map(String::as_str).collect();
         let mut r = raw(&refs, &[0.4; 8]);

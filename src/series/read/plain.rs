@@ -27,39 +27,57 @@ pub(super) struct Rows<'a> {
     pub values: Vec<&'a mut [f64]>,
 }
 
-/// Parses a block of whole lines (the first is line `first_line`) into `rows`, split over the
-/// cores at line ends; returns what each thread found, or `None` when a line is not plain (the
-/// block then goes to polars; `rows` holds nothing of use).
+/// A block of whole lines cut into pieces of whole lines, about equal in bytes, each with the
+/// block's row it starts at; the lines are counted once, here.
+pub(super) struct Pieces<'b> {
+    pieces: Vec<(&'b [u8], usize)>,
+    rows: usize,
+}
+
+impl<'b> Pieces<'b> {
+    /// Pieces of at least 64 KiB (64 bytes in unit tests, so that their blocks are split), four
+    /// per core: a thread slowed by the file's reading and hashing takes fewer of them.
+    pub(super) fn of(block: &'b [u8]) -> Self {
+        let min_piece = if cfg!(test) { 64 } else { 64 << 10 };
+        let n_pieces = (block.len() / min_piece).clamp(1, 4 * crate::series::parallel::cores());
+        let mut pieces: Vec<(&[u8], usize)> = Vec::with_capacity(n_pieces);
+        let (mut at, mut row) = (0usize, 0usize);
+        for i in 1..=n_pieces {
+            let end = if i == n_pieces {
+                block.len()
+            } else {
+                let target = (block.len() * i / n_pieces).max(at);
+                memchr::memchr(b'\n', &block[target..]).map_or(block.len(), |k| target + k + 1)
+            };
+            if end > at {
+                let piece = &block[at..end];
+                pieces.push((piece, row));
+                row += memchr::memchr_iter(b'\n', piece).count() + usize::from(piece.last() != Some(&b'\n'));
+            }
+            at = end;
+        }
+        Self { pieces, rows: row }
+    }
+
+    /// The block's lines.
+    pub(super) fn rows(&self) -> usize {
+        self.rows
+    }
+}
+
+/// Parses a block's `pieces` (its first line is line `first_line`) into `rows`, on all cores;
+/// returns what each piece found, in order, or `None` when a line is not plain (the block then
+/// goes to polars; `rows` holds nothing of use).
 pub(super) fn parse_block(
-    block: &[u8],
+    pieces: &Pieces<'_>,
     layout: &Layout,
     s: &ReadSettings,
     first_line: u32,
     rows: Rows<'_>,
 ) -> Option<Vec<Share>> {
-    let threads = std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8);
-    // pieces of at least 64 KiB (64 bytes in unit tests, so that their blocks are split), four
-    // per thread: a thread slowed by the file's reading and hashing takes fewer of them
-    let min_piece = if cfg!(test) { 64 } else { 64 << 10 };
-    let n_pieces = (block.len() / min_piece).clamp(1, 4 * threads);
-    let threads = threads.min(n_pieces);
-    let mut pieces: Vec<(&[u8], usize)> = Vec::with_capacity(n_pieces);
-    let (mut at, mut row) = (0usize, 0usize);
-    for i in 1..=n_pieces {
-        let end = if i == n_pieces {
-            block.len()
-        } else {
-            let target = (block.len() * i / n_pieces).max(at);
-            memchr::memchr(b'\n', &block[target..]).map_or(block.len(), |k| target + k + 1)
-        };
-        if end > at {
-            let piece = &block[at..end];
-            pieces.push((piece, row));
-            row += memchr::memchr_iter(b'\n', piece).count() + usize::from(piece.last() != Some(&b'\n'));
-        }
-        at = end;
-    }
+    let (row, pieces) = (pieces.rows, &pieces.pieces);
     assert_eq!(row, rows.wall.len(), "a block's rows are its lines");
+    let threads = crate::series::parallel::cores().min(pieces.len());
     let Rows {
         mut lines,
         mut wall,
