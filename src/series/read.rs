@@ -951,7 +951,7 @@ fn settle_block(
     let first_line = before + 1;
     let top = *filled;
     let base = top - n_lines;
-    // rows polars could not settle: read their fields again from the line's bytes
+    // rows either path could not settle: read their fields again from the line's bytes
     let mut time_failed: Vec<u32> = Vec::new();
     let mut recheck: Vec<u32> = Vec::new();
     for sh in shares {
