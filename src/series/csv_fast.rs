@@ -1,5 +1,5 @@
-//! The converted series as standard-style CSV, formatted by flumerate itself: each chunk's rows
-//! split over the cores, formatted into buffers and written in order. The bytes are exactly
+//! The converted series as standard-style CSV, formatted by flumerate itself: each chunk
+//! formatted into a buffer on the thread that converted it, the buffers written in order. The bytes are exactly
 //! those of polars' CSV writer with the options flumerate gives it (tested against it): floats
 //! by the same formatter (zmij, shortest round-trip digits), non-finite values and missing
 //! times as empty fields, times as chrono's `%Y-%m-%dT%H:%M:%S%:z` in the output zone (years
@@ -157,53 +157,33 @@ fn chrono_time(t: i64, zone: OutZone, buf: &mut Vec<u8>) {
     buf.extend_from_slice(text.as_bytes());
 }
 
-/// A CSV file of converted rows in the standard style.
+/// Formats all rows of `c` as CSV lines (the chunk's share of the file, formatted on the
+/// thread that converted it).
+pub fn format_chunk(c: &CsvColumns, zone: OutZone) -> Vec<u8> {
+    let n = c.time_ms.len();
+    let mut buf = Vec::with_capacity(n * 128);
+    format_rows(c, 0..n, zone, &mut buf);
+    buf
+}
+
+/// A CSV file of converted rows in the standard style: the header, then the chunks formatted
+/// by [`format_chunk`], in order.
 pub struct FastCsv {
     out: BufWriter<WriteBehind>,
-    zone: OutZone,
-    threads: usize,
 }
 
 impl FastCsv {
-    /// A writer into `file` with the header `names`; times in `zone`.
-    pub fn new(file: WriteBehind, names: &[String], zone: OutZone) -> std::io::Result<Self> {
+    /// A writer into `file` with the header `names`.
+    pub fn new(file: WriteBehind, names: &[String]) -> std::io::Result<Self> {
         let mut out = BufWriter::with_capacity(1 << 20, file);
         out.write_all(names.join(",").as_bytes())?;
         out.write_all(b"\n")?;
-        Ok(Self {
-            out,
-            zone,
-            threads: super::parallel::cores(),
-        })
+        Ok(Self { out })
     }
 
-    /// Formats the chunk's rows on all cores and writes them in order.
-    pub fn write(&mut self, c: &CsvColumns) -> std::io::Result<()> {
-        let n = c.time_ms.len();
-        let parts = if n < 4096 { 1 } else { self.threads };
-        let per = n.div_ceil(parts).max(1);
-        let zone = self.zone;
-        let buffers: Vec<Vec<u8>> = std::thread::scope(|scope| {
-            let handles: Vec<_> = (0..n)
-                .step_by(per)
-                .map(|start| {
-                    let end = (start + per).min(n);
-                    scope.spawn(move || {
-                        let mut buf = Vec::with_capacity((end - start) * 128);
-                        format_rows(c, start..end, zone, &mut buf);
-                        buf
-                    })
-                })
-                .collect();
-            handles
-                .into_iter()
-                .map(|h| h.join().expect("formatting does not panic"))
-                .collect()
-        });
-        for b in &buffers {
-            self.out.write_all(b)?;
-        }
-        Ok(())
+    /// Writes formatted rows.
+    pub fn write(&mut self, rows: &[u8]) -> std::io::Result<()> {
+        self.out.write_all(rows)
     }
 
     /// Writes what is buffered and waits for the flushes behind the writing.

@@ -138,6 +138,7 @@ enum Kind {
 /// Writes converted chunks.
 pub struct SeriesWriter {
     inner: Inner,
+    preparer: Preparer,
     tz: Option<TimeZone>,
     layout: Layout,
     /// Float columns: name and kind, in output order.
@@ -264,13 +265,19 @@ fn opt(name: &str, v: Vec<f64>) -> Column {
     Float64Chunked::from_vec_validity(name.into(), v, validity).into_column()
 }
 
-/// The Parquet side: each chunk becomes one row group, its columns encoded on two threads
-/// with encodings chosen for the data (polars-parquet does the encoding):
-/// times and line numbers as deltas (they mostly step by a constant), the flag through a
-/// twelve-word dictionary, floats plain. No compression and no column statistics: on a logger
-/// series they shrink the file by a few per cent at several times the cost.
+/// The Parquet side: each chunk becomes one row group, its columns encoded into pages by the
+/// thread that converted it ([`ParquetPages`]) and written in order by [`ParquetSink`].
 struct ParquetSink {
     writer: FileWriter<BufWriter<WriteBehind>>,
+}
+
+/// How a chunk's columns become Parquet pages, with encodings chosen for the data
+/// (polars-parquet does the encoding): times and line numbers as deltas (they mostly step by a
+/// constant), the flag through a twelve-word dictionary, floats plain. No compression and no
+/// column statistics: on a logger series they shrink the file by a few per cent at several
+/// times the cost.
+#[derive(Clone)]
+struct ParquetPages {
     types: Vec<ParquetType>,
     encodings: Vec<Encoding>,
     options: WriteOptions,
@@ -279,7 +286,7 @@ struct ParquetSink {
 }
 
 impl ParquetSink {
-    fn new(file: WriteBehind, tz: Option<&TimeZone>, layout: &Layout) -> PolarsResult<Self> {
+    fn new(file: WriteBehind, tz: Option<&TimeZone>, layout: &Layout) -> PolarsResult<(Self, ParquetPages)> {
         let time_type = ArrowDataType::Timestamp(ArrowTimeUnit::Millisecond, tz.map(|z| z.as_str().into()));
         let mut fields = vec![ArrowField::new("time".into(), time_type.clone(), true)];
         let mut encodings = vec![Encoding::DeltaBinaryPacked];
@@ -305,16 +312,37 @@ impl ParquetSink {
         };
         let schema = ArrowSchema::from_iter(fields);
         let writer = FileWriter::try_new(BufWriter::with_capacity(1 << 20, file), schema, options)?;
-        Ok(Self {
-            writer,
+        let pages = ParquetPages {
             types,
             encodings,
             options,
             time_type,
             flag_words: Utf8ViewArray::from_slice_values(Flag::ALL.map(Flag::as_str)),
-        })
+        };
+        Ok((Self { writer }, pages))
     }
 
+    /// Writes one chunk's pages as a row group.
+    fn write(&mut self, height: usize, pages: &[Vec<CompressedPage>]) -> PolarsResult<()> {
+        let group = DynIter::new(pages.iter().map(|col| {
+            Ok(DynStreamingIterator::new(fallible_streaming_iterator::convert(
+                col.iter().map(PolarsResult::Ok),
+            )))
+        }));
+        self.writer.write(height as u64, group)
+    }
+
+    fn finish(mut self) -> PolarsResult<()> {
+        self.writer.end(None)?;
+        let file = self.writer.into_inner();
+        file.into_inner()
+            .map_err(std::io::IntoInnerError::into_error)?
+            .finish()?;
+        Ok(())
+    }
+}
+
+impl ParquetPages {
     /// Encodes one column into finished pages.
     fn encode(&self, array: &dyn Array, column: usize) -> PolarsResult<Vec<CompressedPage>> {
         let mut out = Vec::new();
@@ -332,8 +360,8 @@ impl ParquetSink {
         Ok(out)
     }
 
-    fn write(&mut self, mut c: Chunk, layout: &Layout) -> PolarsResult<()> {
-        let height = c.line.len();
+    /// The pages of every column of chunk `c`, in the file's column order.
+    fn of_chunk(&self, mut c: Chunk, layout: &Layout) -> PolarsResult<Vec<Vec<CompressedPage>>> {
         let floats = float_columns(&mut c, layout);
         let time_valid = time_validity(&c.time_ms);
         let float = |v: Vec<f64>| -> Box<dyn Array> {
@@ -361,36 +389,62 @@ impl ParquetSink {
             PrimitiveArray::<u32>::from_vec(c.counted_line).with_validity(counted_valid),
         ));
         arrays.extend(floats.map(float));
-        // the first four columns on this thread, the rest on a helper: about the same bytes each
-        let n = arrays.len();
-        let this = &*self;
-        let pages: Vec<Vec<CompressedPage>> = std::thread::scope(|scope| {
-            let helper = scope.spawn(|| {
-                (4..n)
-                    .map(|k| this.encode(arrays[k].as_ref(), k))
-                    .collect::<PolarsResult<Vec<_>>>()
-            });
-            let mut pages = (0..4)
-                .map(|k| this.encode(arrays[k].as_ref(), k))
-                .collect::<PolarsResult<Vec<_>>>()?;
-            pages.extend(helper.join().expect("page encoding does not panic")?);
-            PolarsResult::Ok(pages)
-        })?;
-        let group = DynIter::new(pages.iter().map(|col| {
-            Ok(DynStreamingIterator::new(fallible_streaming_iterator::convert(
-                col.iter().map(PolarsResult::Ok),
-            )))
-        }));
-        self.writer.write(height as u64, group)
+        arrays
+            .iter()
+            .enumerate()
+            .map(|(k, a)| self.encode(a.as_ref(), k))
+            .collect()
     }
+}
 
-    fn finish(mut self) -> PolarsResult<()> {
-        self.writer.end(None)?;
-        let file = self.writer.into_inner();
-        file.into_inner()
-            .map_err(std::io::IntoInnerError::into_error)?
-            .finish()?;
-        Ok(())
+/// A converted chunk made ready for the file by [`Preparer::prepare`]: formatted or encoded on
+/// the thread that converted it, so that [`SeriesWriter::write_prepared`] only copies bytes.
+pub struct Prepared(Ready);
+
+enum Ready {
+    /// CSV lines.
+    Text(Vec<u8>),
+    /// A Parquet row group: its height and each column's pages.
+    Pages(usize, Vec<Vec<CompressedPage>>),
+    /// The chunk itself, for polars' CSV writer (formats when writing).
+    Rows(Box<Chunk>),
+}
+
+/// Makes chunks ready for a [`SeriesWriter`] on any thread (see [`SeriesWriter::preparer`]).
+#[derive(Clone)]
+pub struct Preparer {
+    layout: Layout,
+    how: Prepare,
+}
+
+#[derive(Clone)]
+enum Prepare {
+    Text(super::csv_fast::OutZone),
+    Pages(Box<ParquetPages>),
+    Rows,
+}
+
+impl Preparer {
+    /// Formats (CSV) or encodes (Parquet) chunk `c`.
+    pub fn prepare(&self, mut c: Chunk) -> PolarsResult<Prepared> {
+        Ok(Prepared(match &self.how {
+            Prepare::Text(zone) => {
+                let floats = float_columns(&mut c, &self.layout);
+                let cols = super::csv_fast::CsvColumns {
+                    time_ms: &c.time_ms,
+                    floats: &floats,
+                    flags: c.flag.iter().map(|f| f.as_str()).collect(),
+                    line: &c.line,
+                    counted_line: &c.counted_line,
+                };
+                Ready::Text(super::csv_fast::format_chunk(&cols, *zone))
+            }
+            Prepare::Pages(p) => {
+                let height = c.line.len();
+                Ready::Pages(height, p.of_chunk(c, &self.layout)?)
+            }
+            Prepare::Rows => Ready::Rows(Box::new(c)),
+        }))
     }
 }
 
@@ -423,34 +477,45 @@ impl SeriesWriter {
         fast: bool,
     ) -> PolarsResult<Self> {
         let tz = TimeZone::opt_try_new(Some(zone.unwrap_or("UTC")))?;
-        let inner = match format {
+        let (inner, how) = match format {
             TableFile::Csv if fast && layout.style == CsvStyle::Standard => {
                 let names: Vec<String> = series_schema(tz.clone(), &layout)
                     .iter_names()
                     .map(|n| n.to_string())
                     .collect();
                 let zone = super::csv_fast::OutZone::of(&layout.zone);
-                Inner::FastCsv(super::csv_fast::FastCsv::new(WriteBehind::new(file), &names, zone)?)
+                (
+                    Inner::FastCsv(super::csv_fast::FastCsv::new(WriteBehind::new(file), &names)?),
+                    Prepare::Text(zone),
+                )
             }
             TableFile::Csv => {
                 let datetime = match layout.style {
                     CsvStyle::Standard => "%Y-%m-%dT%H:%M:%S%:z",
                     CsvStyle::Spreadsheet { .. } => "%Y-%m-%d %H:%M:%S",
                 };
-                Inner::Csv(csv_writer(file, layout.style, datetime).batched(&series_schema(tz.clone(), &layout))?)
+                (
+                    Inner::Csv(csv_writer(file, layout.style, datetime).batched(&series_schema(tz.clone(), &layout))?),
+                    Prepare::Rows,
+                )
             }
-            TableFile::Parquet => Inner::Parquet(Box::new(ParquetSink::new(
-                WriteBehind::new(file),
-                tz.as_ref(),
-                &layout,
-            )?)),
+            TableFile::Parquet => {
+                let (sink, pages) = ParquetSink::new(WriteBehind::new(file), tz.as_ref(), &layout)?;
+                (Inner::Parquet(Box::new(sink)), Prepare::Pages(Box::new(pages)))
+            }
         };
         Ok(Self {
             inner,
+            preparer: Preparer { layout, how },
             tz,
             floats: float_names(&layout),
             layout,
         })
+    }
+
+    /// What makes chunks ready for this writer, to be used on the threads that convert them.
+    pub fn preparer(&self) -> &Preparer {
+        &self.preparer
     }
 
     /// The time columns of a CSV chunk.
@@ -486,24 +551,26 @@ impl SeriesWriter {
         }
     }
 
-    /// Appends one chunk (taking its columns without copying them).
-    pub fn write(&mut self, mut c: Chunk) -> PolarsResult<()> {
+    /// Appends one chunk (taking its columns without copying them): [`Preparer::prepare`]
+    /// then [`Self::write_prepared`] on this thread.
+    pub fn write(&mut self, c: Chunk) -> PolarsResult<()> {
+        let ready = self.preparer.prepare(c)?;
+        self.write_prepared(ready)
+    }
+
+    /// Appends one chunk made ready by this writer's [`Preparer`].
+    pub fn write_prepared(&mut self, ready: Prepared) -> PolarsResult<()> {
+        let mut c = match (ready.0, &mut self.inner) {
+            (Ready::Text(bytes), Inner::FastCsv(w)) => return Ok(w.write(&bytes)?),
+            (Ready::Pages(height, pages), Inner::Parquet(p)) => return p.write(height, &pages),
+            (Ready::Rows(c), Inner::Csv(_)) => *c,
+            _ => {
+                polars_bail!(InvalidOperation: "a chunk prepared for another kind of file (use this writer's preparer)")
+            }
+        };
         let layout = self.layout;
-        if let Inner::Parquet(p) = &mut self.inner {
-            return p.write(c, &layout);
-        }
         let height = c.line.len();
         let floats = float_columns(&mut c, &layout);
-        if let Inner::FastCsv(w) = &mut self.inner {
-            let cols = super::csv_fast::CsvColumns {
-                time_ms: &c.time_ms,
-                floats: &floats,
-                flags: c.flag.iter().map(|f| f.as_str()).collect(),
-                line: &c.line,
-                counted_line: &c.counted_line,
-            };
-            return Ok(w.write(&cols)?);
-        }
         let mut cols = self.time_columns(std::mem::take(&mut c.time_ms));
         let flag: StringChunked = c.flag.iter().map(|f| Some(f.as_str())).collect();
         let mut named = self.floats.iter().zip(floats).map(|((name, _), v)| opt(name, v));

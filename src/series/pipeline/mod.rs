@@ -556,8 +556,7 @@ impl<'a> Pipeline<'a> {
     }
 
     /// Stage 5 with its output: converts every row and streams the chunks to the series file,
-    /// encoded on a writer thread while the next chunk converts (a queue of one chunk keeps
-    /// memory flat).
+    /// each formatted or encoded by the thread that converted it and written here in order.
     #[allow(clippy::too_many_arguments)]
     fn write_series(
         &self,
@@ -572,18 +571,10 @@ impl<'a> Pipeline<'a> {
     ) -> Result<Converted, PipelineError> {
         let file = outputs.create(&out.series)?;
         let zone = self.options.settings.zone.polars_name();
-        let writer = SeriesWriter::new(file, format, zone.as_deref(), self.layout())
+        let mut writer = SeriesWriter::new(file, format, zone.as_deref(), self.layout())
             .map_err(|e| output_error(&out.series, e))?;
-        let (tx, rx) = std::sync::mpsc::sync_channel::<Chunk>(1);
-        let writing = std::thread::spawn(move || -> (SeriesWriter, polars::prelude::PolarsResult<()>) {
-            let mut writer = writer;
-            for chunk in rx {
-                if let Err(e) = writer.write(chunk) {
-                    return (writer, Err(e));
-                }
-            }
-            (writer, Ok(()))
-        });
+        let preparer = writer.preparer().clone();
+        let mut failed = None;
         let order = stages::write_order(times, raw, conv, self.options.sort);
         let total = raw.lines.len() as u64;
         let converted = stages::convert_all(
@@ -593,13 +584,20 @@ impl<'a> Pipeline<'a> {
             &rating.inputs,
             order.as_deref(),
             out.plot.is_some(),
-            // a closed queue means the writer stopped on an error, reported below
-            |chunk| tx.send(chunk).is_ok(),
+            |chunk| preparer.prepare(chunk),
+            // the first failure stops the conversion and is reported below
+            |ready| match ready.and_then(|r| writer.write_prepared(r)) {
+                Ok(()) => true,
+                Err(e) => {
+                    failed = Some(e);
+                    false
+                }
+            },
             |done| progress.converting(done, total),
         );
-        drop(tx);
-        let (writer, written) = writing.join().expect("the writer thread does not panic");
-        written.map_err(|e| output_error(&out.series, e))?;
+        if let Some(e) = failed {
+            return Err(output_error(&out.series, e));
+        }
         writer.finish().map_err(|e| output_error(&out.series, e))?;
         Ok(converted)
     }
@@ -681,6 +679,7 @@ impl<'a> Pipeline<'a> {
             &rating.inputs,
             order.as_deref(),
             false,
+            |chunk| chunk,
             |chunk| {
                 rows.append(chunk);
                 true

@@ -18,8 +18,8 @@ use crate::station::Station;
 use crate::tailwater::{Exit, Tailwater};
 use crate::uncertainty::{GumModel, Inputs};
 
-/// Rows per chunk converted and written at a time.
-pub const CHUNK_ROWS: usize = 1 << 17;
+/// Rows per chunk converted, prepared and written at a time.
+pub const CHUNK_ROWS: usize = 1 << 16;
 
 /// The rows' times: instants, local days, notes and the time order.
 #[derive(Debug, Clone)]
@@ -377,20 +377,47 @@ fn convert_part(
     (chunk, c, sm, buckets)
 }
 
-/// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, each chunk on all cores; hands every
-/// finished chunk to `emit` in output order (which returns false to stop: a writer that failed)
-/// and reports progress in rows. Each core's part keeps its own counts and summaries, merged in
-/// order, so the result does not depend on the number of cores. The hydrograph's buckets are
-/// filled only when `hydrograph` is asked for (they stay empty otherwise).
+/// Stage 5: converts every row, [`CHUNK_ROWS`] at a time, and hands every chunk, made ready by
+/// `prepare`, to `emit` in output order (which returns false to stop: a writer that failed);
+/// reports progress in rows emitted. The chunks are shared out to the cores as they come free:
+/// each converts a chunk and prepares it (formats or encodes it for the file), so no core waits
+/// for another at a chunk's end, and at most two chunks per core are on hand at once, which
+/// keeps memory flat. Counts and summaries are merged in chunk order, so the result does not
+/// depend on the number of cores. The hydrograph's buckets are filled only when `hydrograph`
+/// is asked for (they stay empty otherwise).
 #[allow(clippy::too_many_arguments)]
-pub fn convert_all(
+pub fn convert_all<P: Send>(
     conv: &Conversion,
     times: &Times,
     raw: &RawSeries,
     inputs: &Inputs,
     order: Option<&[u32]>,
     hydrograph: bool,
-    mut emit: impl FnMut(Chunk) -> bool,
+    prepare: impl Fn(Chunk) -> P + Sync,
+    emit: impl FnMut(P) -> bool,
+    progress: impl FnMut(u64),
+) -> Converted {
+    let rows = (conv, times, raw, inputs, order);
+    convert_on(cores(), rows, hydrograph, prepare, emit, progress)
+}
+
+/// What [`convert_all`] converts: the conversion, the times, the rows, the rating's inputs and
+/// the write order.
+type ToConvert<'a, 'c> = (
+    &'a Conversion<'c>,
+    &'a Times,
+    &'a RawSeries,
+    &'a Inputs,
+    Option<&'a [u32]>,
+);
+
+/// [`convert_all`] on at most `cores` threads besides this one (none for one chunk or one core).
+fn convert_on<P: Send>(
+    cores: usize,
+    (conv, times, raw, inputs, order): ToConvert,
+    hydrograph: bool,
+    prepare: impl Fn(Chunk) -> P + Sync,
+    mut emit: impl FnMut(P) -> bool,
     mut progress: impl FnMut(u64),
 ) -> Converted {
     let n = raw.lines.len();
@@ -405,43 +432,86 @@ pub fn convert_all(
         summaries: Summaries::default(),
         buckets: empty.clone(),
     };
-    let threads = cores();
-    let mut start = 0;
-    while start < n {
-        let end = (start + CHUNK_ROWS).min(n);
+    let chunks = n.div_ceil(CHUNK_ROWS);
+    // chunk k: its rows' indices, converted and prepared
+    let work = |k: usize| {
+        let rows = k * CHUNK_ROWS..((k + 1) * CHUNK_ROWS).min(n);
         let idx: Vec<usize> = match order {
-            Some(o) => o[start..end].iter().map(|&i| i as usize).collect(),
-            None => (start..end).collect(),
+            Some(o) => o[rows].iter().map(|&i| i as usize).collect(),
+            None => rows.collect(),
         };
-        let per = idx.len().div_ceil(threads).max(1);
-        let parts = std::thread::scope(|scope| {
-            let handles: Vec<_> = idx
-                .chunks(per)
-                .map(|part| {
-                    let b = hydrograph.then(|| empty.clone());
-                    scope.spawn(move || convert_part(conv, times, raw, inputs, part, b))
-                })
-                .collect();
-            handles
-                .into_iter()
-                .map(|h| h.join().expect("conversion does not panic"))
-                .collect::<Vec<_>>()
-        });
-        let mut go_on = true;
-        for (chunk, c, sm, b) in parts {
-            out.counts.merge(c);
-            out.summaries.merge(sm);
-            if let Some(b) = b {
-                out.buckets.merge(&b);
-            }
-            go_on &= emit(chunk);
+        let (chunk, c, sm, b) = convert_part(conv, times, raw, inputs, &idx, hydrograph.then(|| empty.clone()));
+        (prepare(chunk), c, sm, b)
+    };
+    let mut take = |(ready, c, sm, b): (P, Counts, Summaries, Option<HydroBuckets>), end: usize| {
+        out.counts.merge(c);
+        out.summaries.merge(sm);
+        if let Some(b) = b {
+            out.buckets.merge(&b);
         }
+        let go_on = emit(ready);
         progress(end as u64);
-        if !go_on {
-            break;
+        go_on
+    };
+    let workers = cores.min(chunks);
+    if workers <= 1 {
+        for k in 0..chunks {
+            if !take(work(k), ((k + 1) * CHUNK_ROWS).min(n)) {
+                break;
+            }
         }
-        start = end;
+        return out;
     }
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    // chunks emitted so far, and whether to stop; a worker waits while it is too far ahead
+    let gate = (std::sync::Mutex::new((0usize, false)), std::sync::Condvar::new());
+    let ahead = 2 * workers;
+    std::thread::scope(|scope| {
+        let (tx, rx) = std::sync::mpsc::channel();
+        for _ in 0..workers {
+            let (tx, next, gate, work) = (tx.clone(), &next, &gate, &work);
+            scope.spawn(move || loop {
+                let k = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                if k >= chunks {
+                    break;
+                }
+                {
+                    let mut g = gate.0.lock().expect("the gate is not poisoned");
+                    while k >= g.0 + ahead && !g.1 {
+                        g = gate.1.wait(g).expect("the gate is not poisoned");
+                    }
+                    if g.1 {
+                        break;
+                    }
+                }
+                if tx.send((k, work(k))).is_err() {
+                    break;
+                }
+            });
+        }
+        drop(tx);
+        // this thread takes the chunks in order as they arrive; after a failed write it only
+        // lets the workers finish what they hold
+        let mut waiting = std::collections::BTreeMap::new();
+        let (mut due, mut stopped) = (0, false);
+        for (k, done) in rx {
+            if stopped {
+                continue;
+            }
+            waiting.insert(k, done);
+            while let Some(done) = waiting.remove(&due) {
+                stopped = !take(done, ((due + 1) * CHUNK_ROWS).min(n));
+                due += 1;
+                let mut g = gate.0.lock().expect("the gate is not poisoned");
+                *g = (due, stopped);
+                gate.1.notify_all();
+                if stopped {
+                    waiting.clear();
+                    break;
+                }
+            }
+        }
+    });
     out
 }
 
@@ -513,8 +583,6 @@ mod tests {
         assert!((p.max_stage_m - 6.0).abs() < 1e-12);
     }
 
-    /// The drift at a visit is staff minus logger at the nearest readings; converting every row
-    /// with it gives the same rows whatever the write order.
     /// The conversion set-up of the tests: the station's rating and range, zero 0.1 m, no
     /// drift, edits or tailwater.
     fn test_conversion<'a>(
@@ -603,6 +671,8 @@ mod tests {
         }
     }
 
+    /// The drift at a visit is staff minus logger at the nearest readings; converting every row
+    /// with it gives the same rows whatever the write order.
     #[test]
     fn drift_and_conversion_of_every_row() {
         let (st, s, rt) = rated_station();
@@ -628,6 +698,7 @@ mod tests {
             &rt.inputs,
             None,
             false,
+            |ch| ch,
             |ch| {
                 rows.append(ch);
                 true
@@ -645,6 +716,7 @@ mod tests {
             &rt.inputs,
             Some(&order),
             false,
+            |ch| ch,
             |ch| {
                 sorted.append(ch);
                 true
@@ -652,5 +724,100 @@ mod tests {
             |_| {},
         );
         assert_eq!(rows.discharge_m3s, sorted.discharge_m3s, "already in time order");
+    }
+
+    /// Three and a half chunks of 15-minute rows (invented): stages swinging through the
+    /// range, below the crest and above the table, with gaps and a missing time.
+    fn long_record() -> (Station, LoggerSettings, RatingStage, RawSeries) {
+        let (st, s, rt) = rated_station();
+        let n = CHUNK_ROWS * 7 / 2;
+        let start = chrono::NaiveDate::from_ymd_opt(2020, 1, 1)
+            .and_then(|d| d.and_hms_opt(0, 0, 0))
+            .expect("date");
+        let texts: Vec<String> = (0..n)
+            .map(|k| match k {
+                77_777 => "not a time".to_string(),
+                k => (start + chrono::Duration::minutes(15 * k as i64))
+                    .format("%Y-%m-%d %H:%M")
+                    .to_string(),
+            })
+            .collect();
+        let refs: Vec<&str> = texts.iter().map(String::as_str).collect();
+        let stages: Vec<f64> = (0..n)
+            .map(|k| match k % 997 {
+                0 => f64::NAN,
+                _ => 0.05 + 0.5 * (1.0 + (k as f64 / 700.0).sin()),
+            })
+            .collect();
+        let r = raw(&refs, &stages);
+        (st, s, rt, r)
+    }
+
+    #[test]
+    fn chunks_shared_over_threads_give_what_one_thread_gives() {
+        let (st, s, rt, mut r) = long_record();
+        let t = times(&mut r, &s).expect("times");
+        let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
+        let conv = test_conversion(&rt, &st, &s, &t, source, r.lines.len());
+        let run = |cores: usize| {
+            let (mut rows, mut done) = (Chunk::default(), Vec::new());
+            let mut c = convert_on(
+                cores,
+                (&conv, &t, &r, &rt.inputs, None),
+                true,
+                |ch| ch,
+                |ch| {
+                    rows.append(ch);
+                    true
+                },
+                |d| done.push(d),
+            );
+            let daily = c.summaries.daily(&s.zone, &rt.inputs);
+            (format!("{rows:?}"), c.counts, format!("{daily:?}"), done, c.buckets)
+        };
+        let one = run(1);
+        for cores in [2, 3] {
+            let many = run(cores);
+            assert!(one.0 == many.0, "the rows, bit for bit, on {cores} threads");
+            assert_eq!(one.1, many.1, "the counts on {cores} threads");
+            assert!(one.2 == many.2, "the daily summaries on {cores} threads");
+            assert_eq!(one.3, many.3, "progress in rows, in order");
+            assert_eq!(format!("{:?}", one.4), format!("{:?}", many.4), "the buckets");
+        }
+        let n = r.lines.len() as u64;
+        assert_eq!(one.3.last(), Some(&n), "every row reported");
+        let rows_flagged = |f: Flag| one.1.per_flag[f as usize];
+        assert!(
+            [Flag::Missing, Flag::Ok, Flag::Dry, Flag::AboveRange, Flag::BelowRange]
+                .map(rows_flagged)
+                .iter()
+                .all(|&k| k > 0),
+            "the record is a mixed one: {:?}",
+            one.1.per_flag
+        );
+    }
+
+    #[test]
+    fn a_failed_write_stops_the_conversion_without_another_chunk() {
+        let (st, s, rt, mut r) = long_record();
+        let t = times(&mut r, &s).expect("times");
+        let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
+        let conv = test_conversion(&rt, &st, &s, &t, source, r.lines.len());
+        for cores in [1, 2] {
+            let (mut emitted, mut done) = (0, Vec::new());
+            convert_on(
+                cores,
+                (&conv, &t, &r, &rt.inputs, None),
+                false,
+                |ch| ch.line.len(),
+                |_| {
+                    emitted += 1;
+                    emitted < 2
+                },
+                |d| done.push(d),
+            );
+            assert_eq!(emitted, 2, "{cores} threads: the writer failed on the second chunk");
+            assert_eq!(done, [CHUNK_ROWS as u64, 2 * CHUNK_ROWS as u64]);
+        }
     }
 }
