@@ -21,7 +21,9 @@ use super::correct::{depth_from_pressure_m, drift_at_usable, TimeSeries};
 use super::dense::{DenseRating, RatedHead};
 use super::edits::Edits;
 use super::screen::{Fill, Screen, Screened};
-use super::time::{civil_from_days, date_string, days_from_civil, local_day_start_utc, TimeNote, Zone, NO_TIME};
+use super::time::{
+    civil_from_days, date_string, days_from_civil, local_day_start_utc, LocalDays, TimeNote, Zone, NO_TIME,
+};
 use super::timeline::Timeline;
 use crate::station::HeadRange;
 use crate::tailwater::{submerged_estimate, NoEstimate, Tailwater};
@@ -774,7 +776,7 @@ impl Conversion<'_> {
         &self,
         order: &[usize],
         utc: &[i64],
-        days: &[i32],
+        days: &LocalDays,
         values: &[Vec<f64>],
         lines: &[u32],
         inputs: &Inputs,
@@ -823,7 +825,7 @@ impl Conversion<'_> {
         &self,
         order: &[usize],
         utc: &[i64],
-        days: &[i32],
+        days: &LocalDays,
         values: &[Vec<f64>],
         lines: &[u32],
         inputs: &Inputs,
@@ -840,7 +842,7 @@ impl Conversion<'_> {
             if c.time_ms[k] != NO_TIME {
                 let counted = flag.counted() && !self.timeline.is_repeat(i, c.line[k]);
                 let duration_ms = self.duration_of(i, utc);
-                let row = (c.time_ms[k], i64::from(days[i]), c.discharge_m3s[k]);
+                let row = (c.time_ms[k], days.day(i, c.time_ms[k]), c.discharge_m3s[k]);
                 add_to_summaries(summaries, &mut day_end, row, reading.filter(|_| counted), duration_ms);
             }
             c.flag.push(flag);

@@ -540,15 +540,14 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
 
 /// Turns local wall-clock times (ms, [`NO_TIME`] where unread) into UTC instants in place, in
 /// file order, with the daylight-saving rule of the module documentation. Returns the local
-/// calendar day of every row (days since 1970-01-01, [`NO_DAY`] without a time) and the rows
-/// that needed a note, as (row, note); every row not listed resolved to one instant. Local hours
+/// calendar day of every row ([`LocalDays`]) and the rows that needed a note, as (row, note); every row not listed resolved to one instant. Local hours
 /// whose start and end map to the same offset are resolved once and reused, so long series cost
 /// little.
 ///
 /// Long series are resolved in two halves at once. The second half starts at a row whose time
 /// maps to one instant: there the rule starts afresh in file order too, so the result is the
 /// same as in one pass (tested).
-pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (LocalDays, Vec<(usize, TimeNote)>) {
     let order = FileOrder::of(times);
     // a file out of order keeps its wall times for the repeated hour's second look
     let wall = order.shuffled.then(|| times.to_vec());
@@ -565,10 +564,55 @@ pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (Vec<i32>, Vec<(usize
     } else {
         resolve_split(zone, times, 1 << 20)
     };
+    let mut days = LocalDays(days);
     if let Some(wall) = wall {
         repeated_hour_by_occurrence(zone, &wall, times, &mut notes);
+        // those rows' instants moved by an hour: their day's difference from the UTC day follows
+        for &(row, _) in &notes {
+            if times[row] != NO_TIME {
+                days.0[row] = LocalDays::difference(wall_day(wall[row]), times[row]);
+            }
+        }
     }
     (days, notes)
+}
+
+/// Each row's local calendar day (days since 1970-01-01 on the local clock), kept as its
+/// difference from the UTC day of the row's instant: a byte per row instead of four (a UTC
+/// offset is less than a day, so the difference is −1, 0 or +1). Rows without an instant have
+/// no day.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct LocalDays(Vec<i8>);
+
+impl LocalDays {
+    /// The local day of row `i`, whose instant is `utc_ms` (not [`NO_TIME`]).
+    #[inline]
+    pub fn day(&self, i: usize, utc_ms: i64) -> i64 {
+        utc_ms.div_euclid(MS_PER_DAY) + i64::from(self.0[i])
+    }
+
+    /// Adds a row: its instant and local day.
+    pub fn push(&mut self, utc_ms: i64, day: i64) {
+        self.0.push(Self::difference(day, utc_ms));
+    }
+
+    /// Rows.
+    pub fn len(&self) -> usize {
+        self.0.len()
+    }
+
+    /// Whether there are no rows.
+    pub fn is_empty(&self) -> bool {
+        self.0.is_empty()
+    }
+
+    /// Local day `day` of instant `utc_ms` as its difference from the UTC day.
+    #[inline]
+    fn difference(day: i64, utc_ms: i64) -> i8 {
+        let d = day - utc_ms.div_euclid(MS_PER_DAY);
+        debug_assert!(d.abs() <= 1, "a UTC offset is less than a day");
+        d as i8
+    }
 }
 
 /// How a file's readable wall-clock times run.
@@ -650,7 +694,7 @@ pub fn local_day_start_utc(zone: &Zone, day: i64) -> i64 {
     midnight
 }
 
-fn resolve_split(zone: &Zone, times: &mut [i64], min_split: usize) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+fn resolve_split(zone: &Zone, times: &mut [i64], min_split: usize) -> (Vec<i8>, Vec<(usize, TimeNote)>) {
     let two = std::thread::available_parallelism().is_ok_and(|t| t.get() > 1);
     let mid = if two && times.len() >= min_split {
         times.len() / 2
@@ -662,9 +706,9 @@ fn resolve_split(zone: &Zone, times: &mut [i64], min_split: usize) -> (Vec<i32>,
 
 /// Resolves `times` in two halves, the second from the first row at or after `mid` that maps to
 /// one instant (in one pass when there is none).
-fn resolve_from(zone: &Zone, times: &mut [i64], mid: usize) -> (Vec<i32>, Vec<(usize, TimeNote)>) {
+fn resolve_from(zone: &Zone, times: &mut [i64], mid: usize) -> (Vec<i8>, Vec<(usize, TimeNote)>) {
     let n = times.len();
-    let mut days = vec![0i32; n];
+    let mut days = vec![0i8; n];
     let mut mid = mid;
     while mid < n && !(times[mid] != NO_TIME && matches!(zone.resolve_exact(times[mid]), Resolved::Unique(_))) {
         mid += 1;
@@ -684,7 +728,7 @@ fn resolve_from(zone: &Zone, times: &mut [i64], mid: usize) -> (Vec<i32>, Vec<(u
     (days, notes)
 }
 
-fn resolve_part(zone: &Zone, times: &mut [i64], days: &mut [i32], first: usize) -> Vec<(usize, TimeNote)> {
+fn resolve_part(zone: &Zone, times: &mut [i64], days: &mut [i8], first: usize) -> Vec<(usize, TimeNote)> {
     let mut notes = Vec::new();
     let mut cached: Option<(i64, i64)> = None; // (local hour, offset ms) of an unambiguous hour
     let mut prev_ambiguous: Option<i64> = None;
@@ -693,11 +737,9 @@ fn resolve_part(zone: &Zone, times: &mut [i64], days: &mut [i32], first: usize) 
         let i = first + k;
         let w = *slot;
         if w == NO_TIME {
-            *day = NO_DAY;
             notes.push((i, TimeNote::Unparsed));
             continue;
         }
-        *day = wall_day(w) as i32;
         let hour = w.div_euclid(MS_PER_HOUR);
         let resolved = match (zone, cached) {
             (Zone::Fixed(s), _) => Resolved::Unique(w - i64::from(*s) * 1000),
@@ -737,12 +779,12 @@ fn resolve_part(zone: &Zone, times: &mut [i64], days: &mut [i32], first: usize) 
                 }
             }
         };
+        if *slot != NO_TIME {
+            *day = LocalDays::difference(wall_day(w), *slot);
+        }
     }
     notes
 }
-
-/// Marks a row without a local day.
-pub const NO_DAY: i32 = i32::MIN;
 
 /// Local calendar day (days since 1970-01-01 on the local clock) of a wall-clock time.
 pub fn wall_day(wall_ms: i64) -> i64 {
@@ -866,7 +908,7 @@ mod tests {
             wall.push(NO_TIME);
         }
         let mut one = wall.clone();
-        let mut days_one = vec![0; one.len()];
+        let mut days_one = vec![0i8; one.len()];
         let notes_one = resolve_part(&zone, &mut one, &mut days_one, 0);
         assert!(notes_one.iter().any(|n| n.1 == TimeNote::AmbiguousLater));
         for mid in 0..=wall.len() {
@@ -930,5 +972,74 @@ mod tests {
         // 02:00 CEST = 00:00 UTC, 02:00 CET = 01:00 UTC, 03:00 CET = 02:00 UTC
         assert_eq!(utc[5] - utc[3], 3_600_000);
         assert_eq!(utc[7] - utc[6], 30 * 60_000);
+    }
+
+    /// Each row's local day, kept as a difference from the UTC day of its instant, is the day of
+    /// its wall-clock time (IANA tz database): in zones whose clock changes at midnight
+    /// (America/Sao_Paulo: 2018-11-04 00:00 → 01:00, 2019-02-17 00:00 → 2019-02-16 23:00), by
+    /// half an hour (Australia/Lord_Howe), far from UTC (Pacific/Kiritimati +14,
+    /// Pacific/Pago_Pago −11) or at 00:00 UTC, so that a repeated hour's two readings fall on
+    /// two UTC days (Europe/Minsk, 2000-10-29 03:00 → 02:00), and with files in order, newest
+    /// first and shuffled.
+    #[test]
+    fn local_days_are_the_wall_clock_days() {
+        let twenty_minutes = |from: i64, days: i64| (0..days * 72).map(move |k| from * MS_PER_DAY + k * 20 * 60_000);
+        let steps: Vec<i64> = twenty_minutes(days_from_civil(2000, 10, 25), 8)
+            .chain(twenty_minutes(days_from_civil(2018, 10, 28), 165))
+            .collect();
+        let shuffle = |v: &[i64]| {
+            let mut v = v.to_vec();
+            let mut x: u64 = 12_345;
+            for i in (1..v.len()).rev() {
+                // a linear congruential generator (Knuth's MMIX constants) for a fixed shuffle
+                x = x
+                    .wrapping_mul(6_364_136_223_846_793_005)
+                    .wrapping_add(1_442_695_040_888_963_407);
+                v.swap(i, (x >> 33) as usize % (i + 1));
+            }
+            v
+        };
+        for name in [
+            "America/Sao_Paulo",
+            "Australia/Lord_Howe",
+            "Pacific/Kiritimati",
+            "Pacific/Pago_Pago",
+            "Europe/Berlin",
+            "Europe/Minsk",
+        ] {
+            let zone = Zone::parse(name).expect("zone");
+            // wall clocks every 20 minutes (some in a skipped hour), and a logger's clock every
+            // 20 minutes of real time (a repeated hour read twice)
+            let logger: Vec<i64> = steps
+                .iter()
+                .map(|&t| t + i64::from(zone.offset_at_utc(t)) * 1000)
+                .collect();
+            let backward = |v: &[i64]| v.iter().rev().copied().collect::<Vec<i64>>();
+            let files = [
+                steps.clone(),
+                backward(&steps),
+                shuffle(&steps),
+                logger.clone(),
+                backward(&logger),
+                shuffle(&logger),
+            ];
+            for (k, wall) in files.iter().enumerate() {
+                let mut utc = wall.clone();
+                let (days, notes) = resolve_in_place(&zone, &mut utc);
+                assert_eq!(days.len(), wall.len());
+                let resolved = (0..wall.len()).filter(|&i| utc[i] != NO_TIME);
+                for i in resolved {
+                    assert_eq!(days.day(i, utc[i]), wall_day(wall[i]), "{name}, row {i}");
+                }
+                if name == "America/Sao_Paulo" && k < 3 {
+                    assert!(notes.iter().any(|n| n.1 == TimeNote::Nonexistent), "the skipped hour");
+                }
+                if name == "America/Sao_Paulo" || name == "Europe/Minsk" {
+                    let repeated =
+                        |n: &(usize, TimeNote)| matches!(n.1, TimeNote::AmbiguousEarlier | TimeNote::AmbiguousLater);
+                    assert!(notes.iter().any(repeated), "the repeated hour");
+                }
+            }
+        }
     }
 }

@@ -31,6 +31,7 @@ use super::read::{read_logger, RawSeries, ReadError};
 use super::screen::ScreeningSpec;
 use super::settings::{LoggerOverrides, LoggerSettings, SettingsError};
 use super::side::SideError;
+use super::time::LocalDays;
 use super::timeline::TimelineError;
 use crate::files::{FileError, OutputSet};
 use crate::rating::{RatingError, RatingModel};
@@ -452,7 +453,7 @@ impl<'a> Pipeline<'a> {
 
     /// Stage 4c: screening, edits and gap filling over the rows in time order; rows inserted
     /// into filled gaps are added to the arrays.
-    fn screen(&self, conv: &mut Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, raw: &mut RawSeries) {
+    fn screen(&self, conv: &mut Conversion, utc: &mut Vec<i64>, days: &mut LocalDays, raw: &mut RawSeries) {
         let sensor = stages::sensor(&self.options.settings, &self.options.screening);
         conv.screened = stages::screen(conv, utc, raw, &self.options.screening, sensor);
         stages::add_inserted(conv, utc, days, raw);

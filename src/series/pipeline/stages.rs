@@ -9,7 +9,7 @@ use super::super::read::RawSeries;
 use super::super::screen::{Heads, Rows, Screened, ScreeningSpec, Sensor};
 use super::super::settings::LoggerSettings;
 use super::super::side::{read_side_file, SideError};
-use super::super::time::{resolve_in_place, TimeNote, NO_TIME};
+use super::super::time::{resolve_in_place, LocalDays, TimeNote, NO_TIME};
 use super::super::timeline::{Timeline, TimelineError};
 use crate::rating::limits::invalid_head_bands;
 use crate::rating::{RatingEquation, RatingError, RatingModel};
@@ -27,7 +27,7 @@ pub struct Times {
     /// UTC ms per row ([`NO_TIME`] where none).
     pub utc: Vec<i64>,
     /// Local calendar day per row.
-    pub days: Vec<i32>,
+    pub days: LocalDays,
     /// Rows whose time needed a note.
     pub notes: Vec<(usize, TimeNote)>,
     /// The rows in time order.
@@ -320,7 +320,7 @@ pub fn screen(conv: &Conversion, utc: &[i64], raw: &RawSeries, spec: &ScreeningS
 
 /// Adds the rows inserted into filled gaps to the arrays: their instants and local days, no
 /// values, line 0.
-pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, raw: &mut RawSeries) {
+pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut LocalDays, raw: &mut RawSeries) {
     let inserted = &conv.screened.inserted;
     if inserted.is_empty() {
         return;
@@ -328,7 +328,7 @@ pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut Vec<i32>, 
     for r in inserted {
         let offset_ms = i64::from(conv.zone.offset_at_utc(r.time_ms)) * 1000;
         utc.push(r.time_ms);
-        days.push((r.time_ms + offset_ms).div_euclid(86_400_000) as i32);
+        days.push(r.time_ms, (r.time_ms + offset_ms).div_euclid(86_400_000));
         raw.lines.push(0);
         for v in &mut raw.values {
             v.push(f64::NAN);
