@@ -222,7 +222,29 @@ pub enum Heads<'a> {
     },
 }
 
-impl Heads<'_> {
+impl<'a> Heads<'a> {
+    /// The heads of rows `r` as rows of their own.
+    fn segment(&self, r: std::ops::Range<usize>) -> Heads<'a> {
+        match *self {
+            Heads::Stored(h) => Heads::Stored(&h[r]),
+            Heads::FromStage {
+                stage,
+                utc,
+                metres_per_unit,
+                zero_m,
+                min_m,
+                max_m,
+            } => Heads::FromStage {
+                stage: &stage[r.clone()],
+                utc: &utc[r],
+                metres_per_unit,
+                zero_m,
+                min_m,
+                max_m,
+            },
+        }
+    }
+
     /// The head of row `i` (m).
     #[inline]
     pub fn get(&self, i: usize) -> f64 {
@@ -257,7 +279,21 @@ pub const AIR: u8 = 1;
 /// [`Rows::air`]: the stage is within the out-of-water tolerance of the dry reading.
 pub const NEAR_DRY: u8 = 2;
 
-impl Rows<'_> {
+impl<'a> Rows<'a> {
+    /// Rows `r` of a file in time order (`order` is `None`) as rows of their own: position `p`
+    /// of the segment is row `r.start + p`, and the rows end at `r.end`.
+    fn segment(&self, r: std::ops::Range<usize>) -> Rows<'a> {
+        debug_assert!(self.order.is_none(), "only a file in time order is cut into segments");
+        Rows {
+            order: None,
+            utc: &self.utc[r.clone()],
+            raw: &self.raw[r.clone()],
+            head: self.head.segment(r.clone()),
+            air: &self.air[r],
+            interval_ms: self.interval_ms,
+        }
+    }
+
     /// Positions in time order.
     fn len(&self) -> usize {
         self.order.map_or(self.utc.len(), <[u32]>::len)
@@ -320,6 +356,26 @@ const NO_HEAD: u8 = 255;
 
 /// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
 pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) -> Screened {
+    let halves = if rows.order.is_none() && n >= 1 << 16 && super::parallel::cores() > 1 {
+        Halves::From(n / 2)
+    } else {
+        Halves::Off
+    };
+    screen_in(rows, n, edits, spec, halves)
+}
+
+/// Whether the walks in time order run in two halves at once, the second from the first row at
+/// or after the given position where the walk starts afresh (see [`in_halves`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Halves {
+    /// One pass.
+    Off,
+    /// Two halves, split at or after this position.
+    From(usize),
+}
+
+/// [`screen`], its walks split as `halves` says.
+fn screen_in(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec, halves: Halves) -> Screened {
     let mut s = Screened {
         codes: vec![0; n],
         edit_rows: vec![0; edits.edits.len()],
@@ -334,11 +390,20 @@ pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) ->
     });
     apply_edits(rows.utc, edits, &mut s);
     if spec.enabled {
-        out_of_water(rows, spec, &mut s.codes);
-        spikes(rows, spec, &mut s.codes);
-        flat(rows, spec, &mut s.codes);
+        let walk_oow = |r: &Rows<'_>, c: &mut [u8]| out_of_water(r, spec, c);
+        in_halves(rows, &mut s.codes, halves, oow_split, walk_oow);
+        let walk_spikes = |r: &Rows<'_>, c: &mut [u8]| spikes(r, spec, c);
+        in_halves(
+            rows,
+            &mut s.codes,
+            halves,
+            |r, c, p| spike_split(r, c, p, spec),
+            walk_spikes,
+        );
+        let walk_flat = |r: &Rows<'_>, c: &mut [u8]| flat(r, spec, c);
+        in_halves(rows, &mut s.codes, halves, flat_split, walk_flat);
     }
-    fill_gaps(rows, edits, spec, &mut s);
+    fill_gaps(rows, edits, spec, &mut s, halves);
     for_parts(&mut s.codes, |_, part| {
         for c in part {
             if *c == NO_HEAD {
@@ -364,6 +429,90 @@ pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) ->
     });
     s.screened = counts.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
     s
+}
+
+/// Runs `walk` over the rows in time order: in one pass, or (`halves`, a file in time order) in
+/// two halves at once, cut at the row `split` finds at or after the given position. `split`
+/// must find a row at which the walk starts afresh, whatever came before, and up to which the
+/// walk's decisions look at no later row: then the two halves give exactly what one pass gives
+/// (tested for every cut). Without such a row the walk runs in one pass.
+fn in_halves(
+    rows: &Rows<'_>,
+    codes: &mut [u8],
+    halves: Halves,
+    split: impl Fn(&Rows<'_>, &[u8], usize) -> Option<usize>,
+    walk: impl Fn(&Rows<'_>, &mut [u8]) + Sync,
+) {
+    let cut = match halves {
+        Halves::From(from) if rows.order.is_none() => split(rows, codes, from),
+        _ => None,
+    };
+    let Some(q) = cut.filter(|&q| q > 0 && q < rows.len()) else {
+        walk(rows, codes);
+        return;
+    };
+    let (first, second) = (rows.segment(0..q), rows.segment(q..rows.len()));
+    let (a, b) = codes.split_at_mut(q);
+    std::thread::scope(|scope| {
+        let walk = &walk;
+        scope.spawn(move || walk(&second, b));
+        walk(&first, a);
+    });
+}
+
+/// Out of water starts afresh at a usable row clear of the dry reading (it sets the state
+/// whatever came before, and the walk never looks ahead).
+fn oow_split(rows: &Rows<'_>, codes: &[u8], from: usize) -> Option<usize> {
+    (from..rows.len()).find(|&p| rows.usable(codes, p) && rows.air[rows.row(p)] == 0)
+}
+
+/// Flat lines start afresh at a usable row whose logged value differs from the usable row
+/// before it (a run ends there).
+fn flat_split(rows: &Rows<'_>, codes: &[u8], from: usize) -> Option<usize> {
+    let mut before = (0..from.min(rows.len())).rev().find(|&p| rows.usable(codes, p));
+    for p in from..rows.len() {
+        if !rows.usable(codes, p) {
+            continue;
+        }
+        let bits = rows.raw[rows.row(p)].to_bits();
+        if before.is_some_and(|b| rows.raw[rows.row(b)].to_bits() != bits) {
+            return Some(p);
+        }
+        before = Some(p);
+    }
+    None
+}
+
+/// Spikes start afresh at a usable row `q` that, with the `spike_return + 1` usable rows before
+/// it, spans no more than half the rise. No jump can then be found among those rows (a jump
+/// into the first of them from further back finds no way back, since all are more than half
+/// the rise from where it came), so `q` is a reading before for the walk in one pass, and no
+/// jump before `q` looks at `q` or beyond (a jump looks `spike_return` usable rows ahead).
+fn spike_split(rows: &Rows<'_>, codes: &[u8], from: usize, spec: &ScreeningSpec) -> Option<usize> {
+    let need = spec.spike_return + 1;
+    let half = spec.spike_rise_m / 2.0;
+    let mut window: std::collections::VecDeque<f64> = (0..from.min(rows.len()))
+        .rev()
+        .filter(|&p| rows.usable(codes, p))
+        .take(need)
+        .map(|p| rows.head.get(rows.row(p)))
+        .collect();
+    window.make_contiguous().reverse();
+    for p in from..rows.len() {
+        if !rows.usable(codes, p) {
+            continue;
+        }
+        let h = rows.head.get(rows.row(p));
+        if window.len() == need {
+            let (lo, hi) = window.iter().fold((h, h), |(lo, hi), &x| (lo.min(x), hi.max(x)));
+            if hi - lo <= half {
+                return Some(p);
+            }
+            window.pop_front();
+        }
+        window.push_back(h);
+    }
+    None
 }
 
 /// `exclude` and `fill` windows mark their rows; every edit counts the rows it touches.
@@ -485,45 +634,50 @@ fn flat(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
     }
 }
 
-/// Fills gaps between usable readings (and the windows of `fill` edits).
-fn fill_gaps(rows: &Rows<'_>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened) {
-    let max_ms = (spec.fill_max_hours * 3_600_000.0).round() as i64;
-    let edit_line = |t: i64| {
-        edits
-            .edits
-            .iter()
-            .find(|e| e.action == EditAction::Fill && e.covers(t))
-            .map(|e| e.line)
+/// Fills gaps between usable readings (and the windows of `fill` edits): in one pass, or
+/// (`halves`, a file in time order) in two halves at once that share a usable row, the end of
+/// the first half's last gap and the start of the second's first (gaps are independent of each
+/// other, so the halves give exactly what one pass gives; tested for every cut).
+fn fill_gaps(rows: &Rows<'_>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened, halves: Halves) {
+    let cut = match halves {
+        Halves::From(from) if rows.order.is_none() => (from..rows.len()).find(|&p| rows.usable(&s.codes, p)),
+        _ => None,
     };
-    let mut failed: Vec<usize> = Vec::new();
-    let mut anchor: Option<usize> = None;
-    // rows after the anchor without a usable head
-    let mut between: Vec<u32> = Vec::new();
-    for p in 0..rows.len() {
-        let i = rows.row(p);
-        if rows.utc[i] == NO_TIME {
-            continue;
+    let n = rows.len();
+    let parts: Vec<(usize, FillPart)> = match cut.filter(|&q| q > 0 && q + 1 < n) {
+        Some(q) => {
+            let (first, second) = (rows.segment(0..q + 1), rows.segment(q..n));
+            let codes = &s.codes;
+            std::thread::scope(|scope| {
+                let later = scope.spawn(move || fill_walk(&second, &codes[q..], edits, spec));
+                let early = fill_walk(&first, &codes[..=q], edits, spec);
+                vec![(0, early), (q, later.join().expect("filling does not panic"))]
+            })
         }
-        if !rows.usable(&s.codes, p) {
-            let fill_edit = s.codes[i] == Screen::FillEdit as u8;
-            match anchor {
-                None if fill_edit => failed.push(i),
-                None => {}
-                Some(_) => between.push(i as u32),
-            }
-            continue;
+        None => vec![(0, fill_walk(rows, &s.codes, edits, spec))],
+    };
+    let (mut failed, mut trailing) = (Vec::new(), Vec::new());
+    let (mut unfilled, mut unfilled_ms) = (0, 0i64);
+    for (off, part) in parts {
+        let shift = off as u32;
+        s.fills.extend(part.fills.into_iter().map(|(r, f)| (r + shift, f)));
+        s.inserted.extend(part.inserted.into_iter().map(|mut r| {
+            r.after_row += shift;
+            r
+        }));
+        for (all, k) in s.filled_from.iter_mut().zip(part.filled_from) {
+            *all += k;
         }
-        if let Some(a) = anchor {
-            fill_one_gap(rows, edits, a, std::mem::take(&mut between), i, max_ms, &edit_line, s);
-        }
-        anchor = Some(i);
+        let room = MAX_LISTED_GAPS.saturating_sub(s.gaps.len());
+        s.gaps.extend(part.gaps.into_iter().take(room));
+        s.gaps_total += part.gaps_total;
+        unfilled += part.unfilled.0;
+        unfilled_ms += part.unfilled.1;
+        failed.extend(part.failed.into_iter().map(|i| i + off));
+        trailing = part.trailing.into_iter().map(|r| r as usize + off).collect();
     }
-    failed.extend(
-        between
-            .iter()
-            .map(|&r| r as usize)
-            .filter(|&i| s.codes[i] == Screen::FillEdit as u8),
-    );
+    s.unfilled = (unfilled, unfilled_ms as f64 / 3_600_000.0);
+    failed.extend(trailing.into_iter().filter(|&i| s.codes[i] == Screen::FillEdit as u8));
     s.fill_edits_failed = failed
         .into_iter()
         .filter_map(|i| {
@@ -537,17 +691,74 @@ fn fill_gaps(rows: &Rows<'_>, edits: &Edits, spec: &ScreeningSpec, s: &mut Scree
     s.fill_edits_failed.dedup();
 }
 
+/// What filling found in rows of their own (row numbers counted from their first row).
+#[derive(Debug, Default)]
+struct FillPart {
+    /// Filled heads of input rows.
+    fills: Vec<(u32, Fill)>,
+    /// Rows inserted into filled gaps, in time order.
+    inserted: Vec<Inserted>,
+    /// Of the filled input rows: how many per decision.
+    filled_from: [usize; 6],
+    /// The filled gaps (at most [`MAX_LISTED_GAPS`]).
+    gaps: Vec<FilledGap>,
+    /// How many gaps were filled.
+    gaps_total: usize,
+    /// Gaps longer than the fill limit (count, ms).
+    unfilled: (usize, i64),
+    /// Rows of `fill` edits before the first usable row.
+    failed: Vec<usize>,
+    /// Rows after the last usable row.
+    trailing: Vec<u32>,
+}
+
+/// Fills the gaps between the usable rows of `rows` (one pass, in time order).
+fn fill_walk(rows: &Rows<'_>, codes: &[u8], edits: &Edits, spec: &ScreeningSpec) -> FillPart {
+    let max_ms = (spec.fill_max_hours * 3_600_000.0).round() as i64;
+    let edit_line = |t: i64| {
+        edits
+            .edits
+            .iter()
+            .find(|e| e.action == EditAction::Fill && e.covers(t))
+            .map(|e| e.line)
+    };
+    let mut out = FillPart::default();
+    let mut anchor: Option<usize> = None;
+    // rows after the anchor without a usable head
+    let mut between: Vec<u32> = Vec::new();
+    for p in 0..rows.len() {
+        let i = rows.row(p);
+        if rows.utc[i] == NO_TIME {
+            continue;
+        }
+        if !rows.usable(codes, p) {
+            let fill_edit = codes[i] == Screen::FillEdit as u8;
+            match anchor {
+                None if fill_edit => out.failed.push(i),
+                None => {}
+                Some(_) => between.push(i as u32),
+            }
+            continue;
+        }
+        if let Some(a) = anchor {
+            let gap = (a, std::mem::take(&mut between), i);
+            fill_one_gap(rows, edits, codes, gap, max_ms, &edit_line, &mut out);
+        }
+        anchor = Some(i);
+    }
+    out.trailing = between;
+    out
+}
+
 /// One gap between usable rows `a` and `b` with the rows `between` them that may be filled.
-#[allow(clippy::too_many_arguments)]
 fn fill_one_gap(
     rows: &Rows<'_>,
     edits: &Edits,
-    a: usize,
-    between: Vec<u32>,
-    b: usize,
+    codes: &[u8],
+    (a, between, b): (usize, Vec<u32>, usize),
     max_ms: i64,
     edit_line: &dyn Fn(i64) -> Option<usize>,
-    s: &mut Screened,
+    s: &mut FillPart,
 ) {
     let (ta, tb) = (rows.utc[a], rows.utc[b]);
     let no_rows_gap = tb - ta > rows.interval_ms + rows.interval_ms / 10;
@@ -558,7 +769,7 @@ fn fill_one_gap(
     let wanted: Vec<u32> = between
         .iter()
         .copied()
-        .filter(|&r| by_rule || s.codes[r as usize] == Screen::FillEdit as u8)
+        .filter(|&r| by_rule || codes[r as usize] == Screen::FillEdit as u8)
         .collect();
     let (ha, hb) = (rows.head.get(a), rows.head.get(b));
     let fill_at = |t: i64| Fill {
@@ -567,9 +778,9 @@ fn fill_one_gap(
     };
     for &r in &wanted {
         let i = r as usize;
-        let code = if s.codes[i] == NO_HEAD { 0 } else { s.codes[i] };
+        let code = if codes[i] == NO_HEAD { 0 } else { codes[i] };
         s.filled_from[usize::from(code)] += 1;
-        s.fills.insert(r, fill_at(rows.utc[i]));
+        s.fills.push((r, fill_at(rows.utc[i])));
     }
     let first_inserted = s.inserted.len();
     if by_rule || fill_edit_within(edits, ta, tb) {
@@ -579,7 +790,7 @@ fn fill_one_gap(
     if !by_rule {
         // longer than the limit: missing, except what fill edits asked for
         s.unfilled.0 += 1;
-        s.unfilled.1 += (tb - ta) as f64 / 3_600_000.0;
+        s.unfilled.1 += tb - ta;
     }
     if wanted.is_empty() && inserted == 0 {
         return;
@@ -797,5 +1008,185 @@ mod tests {
         assert_eq!(s.edit_rows, [2, 1]);
         assert!(s.fill(2).is_none(), "excluded and no gap filling asked");
         assert!((s.fill(6).expect("filled by the edit").head_m - 0.2).abs() < 1e-12);
+    }
+
+    /// A record with every kind of decision (invented): a slow swing, spikes of one to four
+    /// readings (some coming back, some not), a lift-out, flat lines long and short, missing
+    /// readings, gaps without rows short and long, an exclude edit and fill edits.
+    fn mixed_record() -> (Vec<i64>, Vec<f64>, Edits) {
+        let n = 600;
+        let utc: Vec<i64> = (0..n as i64)
+            .map(|k| k * 15 * MIN + if k >= 100 { 45 * MIN } else { 0 } + if k >= 300 { 300 * MIN } else { 0 })
+            .collect();
+        let heads: Vec<f64> = (0..n)
+            .map(|k| {
+                let base = 0.3 + 0.1 * (k as f64 / 40.0).sin();
+                match k {
+                    50 => base + 0.5,
+                    120..=122 => base + 0.4,
+                    200..=209 => base + 0.3,
+                    230 => base - 0.25,
+                    250 => -0.09,
+                    251..=258 => -0.085,
+                    330..=333 => base + 0.2,
+                    400..=460 => 0.35,
+                    470..=475 => 0.33,
+                    500 | 501 | 520 => f64::NAN,
+                    _ => base,
+                }
+            })
+            .collect();
+        let at = |k: usize| {
+            chrono::DateTime::from_timestamp_millis(utc[k])
+                .expect("time")
+                .to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+        };
+        let text = format!(
+            "start,end,action,reason\n{},{},exclude,cleaning\n{},{},fill,bird on the float\n{},{},fill,weed\n",
+            at(530),
+            at(535),
+            at(540),
+            at(540),
+            at(0),
+            at(1)
+        );
+        let edits = Edits::parse(&text, &[], &super::super::time::Zone::Fixed(0)).expect("edits");
+        (utc, heads, edits)
+    }
+
+    /// The walks in two halves give what one pass gives, wherever the cut falls.
+    #[test]
+    fn halves_give_what_one_pass_gives_for_every_cut() {
+        let (utc, heads, edits) = mixed_record();
+        let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
+        let sensor = Sensor {
+            dry_m: 0.0,
+            below_crest: true,
+        };
+        let spec = ScreeningSpec::default();
+        let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, &spec)).collect();
+        let rows = Rows {
+            order: None,
+            utc: &utc,
+            raw: &raw,
+            head: Heads::Stored(&heads),
+            air: &air,
+            interval_ms: 15 * MIN,
+        };
+        let n = heads.len();
+        let one = screen_in(&rows, n, &edits, &spec, Halves::Off);
+        let c = codes(&one, n);
+        for want in [
+            Screen::Spike,
+            Screen::OutOfWater,
+            Screen::Flat,
+            Screen::Excluded,
+            Screen::FillEdit,
+        ] {
+            assert!(c.contains(&want), "the record has {want:?} rows");
+        }
+        assert!(
+            one.gaps_total > 3 && one.unfilled.0 > 0 && !one.inserted.is_empty(),
+            "{one:?}"
+        );
+        assert_eq!(
+            one.fill_edits_failed,
+            [4],
+            "the fill edit before the first usable reading (line 4)"
+        );
+        let mut cut = [0; 4];
+        for from in 0..=n {
+            let two = screen_in(&rows, n, &edits, &spec, Halves::From(from));
+            assert!(two == one, "cut at or after row {from}");
+            let start: Vec<u8> = heads.iter().map(|h| if h.is_finite() { 0 } else { NO_HEAD }).collect();
+            let found = [
+                oow_split(&rows, &start, from),
+                spike_split(&rows, &start, from, &spec),
+                flat_split(&rows, &start, from),
+                (from..n).find(|&p| rows.usable(&start, p)),
+            ];
+            for (k, q) in found.iter().enumerate() {
+                cut[k] += usize::from(q.is_some_and(|q| q > 0 && q + 1 < n));
+            }
+        }
+        assert!(cut.iter().all(|&k| k > n / 2), "most positions give a cut: {cut:?}");
+    }
+
+    /// The same on random records (a fixed linear congruential generator, Knuth's MMIX
+    /// constants): steps, jumps that come back or stay, repeated values, missing readings,
+    /// drops to the dry reading and gaps in time, with a spike rise of 0.05 m coming back within
+    /// two readings and flat lines of an hour.
+    #[test]
+    fn halves_give_what_one_pass_gives_on_random_records() {
+        let spec = ScreeningSpec {
+            spike_rise_m: 0.05,
+            spike_return: 2,
+            flat_hours: 1.0,
+            ..ScreeningSpec::default()
+        };
+        let sensor = Sensor {
+            dry_m: 0.0,
+            below_crest: true,
+        };
+        let mut x: u64 = 7;
+        let mut next = move |m: u64| {
+            x = x
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            (x >> 33) % m
+        };
+        for _ in 0..12 {
+            let n = 240;
+            let (mut t, mut h) = (0i64, 0.3f64);
+            // an excursion under way: readings left, the level it left, where it goes
+            let (mut left, mut level, mut height) = (0u64, 0.3f64, 0.0f64);
+            let (mut utc, mut heads) = (Vec::new(), Vec::new());
+            for _ in 0..n {
+                t += 15 * MIN * if next(25) == 0 { 1 + next(12) as i64 } else { 1 };
+                let small = (next(21) as f64 - 10.0) * 0.002;
+                h = if left > 0 {
+                    left -= 1;
+                    // back to near the level (within half the rise or not), or still away
+                    if left == 0 {
+                        level + small * 2.0
+                    } else {
+                        level + height + small
+                    }
+                } else {
+                    match next(40) {
+                        0 => f64::NAN,
+                        1 => -0.09,
+                        2..=4 => h,
+                        _ if h.is_nan() || h < 0.0 => 0.3,
+                        5 | 6 => h + 0.2,
+                        7 | 8 => h - 0.2,
+                        9..=14 => {
+                            (left, level) = (1 + next(4), h);
+                            height = (next(9) as f64 - 4.0) * 0.03;
+                            h + height
+                        }
+                        _ => h + small,
+                    }
+                };
+                utc.push(t);
+                heads.push(h);
+            }
+            let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
+            let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, &spec)).collect();
+            let rows = Rows {
+                order: None,
+                utc: &utc,
+                raw: &raw,
+                head: Heads::Stored(&heads),
+                air: &air,
+                interval_ms: 15 * MIN,
+            };
+            let edits = Edits::default();
+            let one = screen_in(&rows, n, &edits, &spec, Halves::Off);
+            for from in 0..=n {
+                let two = screen_in(&rows, n, &edits, &spec, Halves::From(from));
+                assert!(two == one, "cut at or after row {from}: {heads:?}");
+            }
+        }
     }
 }
