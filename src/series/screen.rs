@@ -225,24 +225,19 @@ pub enum Heads<'a> {
 impl<'a> Heads<'a> {
     /// The heads of rows `r` as rows of their own.
     fn segment(&self, r: std::ops::Range<usize>) -> Heads<'a> {
-        match *self {
-            Heads::Stored(h) => Heads::Stored(&h[r]),
-            Heads::FromStage {
-                stage,
-                utc,
-                metres_per_unit,
-                zero_m,
-                min_m,
-                max_m,
-            } => Heads::FromStage {
-                stage: &stage[r.clone()],
-                utc: &utc[r],
-                metres_per_unit,
-                zero_m,
-                min_m,
-                max_m,
-            },
+        let mut part = *self;
+        match &mut part {
+            Heads::Stored(h) => {
+                let all: &'a [f64] = h;
+                *h = &all[r];
+            }
+            Heads::FromStage { stage, utc, .. } => {
+                let (all_stage, all_utc): (&'a [f64], &'a [i64]) = (stage, utc);
+                *stage = &all_stage[r.clone()];
+                *utc = &all_utc[r];
+            }
         }
+        part
     }
 
     /// The head of row `i` (m).
@@ -877,21 +872,56 @@ mod tests {
     }
 
     fn run_at(utc: &[i64], heads: &[f64], spec: &ScreeningSpec, edits: &Edits) -> Screened {
-        let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
+        with_rows(utc, heads, spec, |rows| screen(rows, heads.len(), edits, spec))
+    }
+
+    /// Runs `f` on readings at `utc` in time order (stage = head + 0.1 m, zero 0.1 m, 15-minute
+    /// interval) from a logger whose sensor sits below the crest, dry at stage 0.
+    fn with_rows<R>(utc: &[i64], heads: &[f64], spec: &ScreeningSpec, f: impl FnOnce(&Rows<'_>) -> R) -> R {
+        with_rows_as(false, utc, heads, spec, f)
+    }
+
+    /// [`with_rows`], the heads worked out from the stage as screening needs them
+    /// (`from_stage`) or stored.
+    fn with_rows_as<R>(
+        from_stage: bool,
+        utc: &[i64],
+        heads: &[f64],
+        spec: &ScreeningSpec,
+        f: impl FnOnce(&Rows<'_>) -> R,
+    ) -> R {
+        // a row without a time keeps its logged stage, but has no head
+        let raw: Vec<f64> = heads
+            .iter()
+            .zip(utc)
+            .map(|(h, &t)| if t == NO_TIME { 0.4 } else { h + 0.1 })
+            .collect();
         let sensor = Sensor {
             dry_m: 0.0,
             below_crest: true,
         };
         let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, spec)).collect();
+        let head = if from_stage {
+            Heads::FromStage {
+                stage: &raw,
+                utc,
+                metres_per_unit: 1.0,
+                zero_m: 0.1,
+                min_m: -1.0,
+                max_m: 10.0,
+            }
+        } else {
+            Heads::Stored(heads)
+        };
         let rows = Rows {
             order: None,
             utc,
             raw: &raw,
-            head: Heads::Stored(heads),
+            head,
             air: &air,
             interval_ms: 15 * MIN,
         };
-        screen(&rows, heads.len(), edits, spec)
+        f(&rows)
     }
 
     fn codes(s: &Screened, n: usize) -> Vec<Screen> {
@@ -1010,18 +1040,37 @@ mod tests {
         assert!((s.fill(6).expect("filled by the edit").head_m - 0.2).abs() < 1e-12);
     }
 
+    /// Screens readings at `utc` ([`with_rows`]) in one pass and in two halves cut at or after
+    /// every row, with the heads stored and worked out from the stage; asserts that the halves
+    /// give what one pass gives and returns the pass with stored heads.
+    fn halves_agree(utc: &[i64], heads: &[f64], edits: &Edits, spec: &ScreeningSpec) -> Screened {
+        let check = |rows: &Rows<'_>| {
+            let n = heads.len();
+            let one = screen_in(rows, n, edits, spec, Halves::Off);
+            for from in 0..=n {
+                let two = screen_in(rows, n, edits, spec, Halves::From(from));
+                assert!(two == one, "cut at or after row {from}: {heads:?}");
+            }
+            one
+        };
+        with_rows_as(true, utc, heads, spec, check);
+        with_rows(utc, heads, spec, check)
+    }
+
     /// A record with every kind of decision (invented): a slow swing, spikes of one to four
     /// readings (some coming back, some not), a lift-out, flat lines long and short, missing
-    /// readings, gaps without rows short and long, an exclude edit and fill edits.
+    /// readings and times, gaps without rows short and long, an exclude edit and fill edits.
     fn mixed_record() -> (Vec<i64>, Vec<f64>, Edits) {
         let n = 600;
-        let utc: Vec<i64> = (0..n as i64)
+        let mut utc: Vec<i64> = (0..n as i64)
             .map(|k| k * 15 * MIN + if k >= 100 { 45 * MIN } else { 0 } + if k >= 300 { 300 * MIN } else { 0 })
             .collect();
+        let no_time = [150, 450, 451];
         let heads: Vec<f64> = (0..n)
             .map(|k| {
                 let base = 0.3 + 0.1 * (k as f64 / 40.0).sin();
                 match k {
+                    k if no_time.contains(&k) => f64::NAN,
                     50 => base + 0.5,
                     120..=122 => base + 0.4,
                     200..=209 => base + 0.3,
@@ -1051,6 +1100,9 @@ mod tests {
             at(1)
         );
         let edits = Edits::parse(&text, &[], &super::super::time::Zone::Fixed(0)).expect("edits");
+        for k in no_time {
+            utc[k] = NO_TIME;
+        }
         (utc, heads, edits)
     }
 
@@ -1058,23 +1110,9 @@ mod tests {
     #[test]
     fn halves_give_what_one_pass_gives_for_every_cut() {
         let (utc, heads, edits) = mixed_record();
-        let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
-        let sensor = Sensor {
-            dry_m: 0.0,
-            below_crest: true,
-        };
         let spec = ScreeningSpec::default();
-        let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, &spec)).collect();
-        let rows = Rows {
-            order: None,
-            utc: &utc,
-            raw: &raw,
-            head: Heads::Stored(&heads),
-            air: &air,
-            interval_ms: 15 * MIN,
-        };
+        let one = halves_agree(&utc, &heads, &edits, &spec);
         let n = heads.len();
-        let one = screen_in(&rows, n, &edits, &spec, Halves::Off);
         let c = codes(&one, n);
         for want in [
             Screen::Spike,
@@ -1094,21 +1132,23 @@ mod tests {
             [4],
             "the fill edit before the first usable reading (line 4)"
         );
-        let mut cut = [0; 4];
-        for from in 0..=n {
-            let two = screen_in(&rows, n, &edits, &spec, Halves::From(from));
-            assert!(two == one, "cut at or after row {from}");
-            let start: Vec<u8> = heads.iter().map(|h| if h.is_finite() { 0 } else { NO_HEAD }).collect();
-            let found = [
-                oow_split(&rows, &start, from),
-                spike_split(&rows, &start, from, &spec),
-                flat_split(&rows, &start, from),
-                (from..n).find(|&p| rows.usable(&start, p)),
-            ];
-            for (k, q) in found.iter().enumerate() {
-                cut[k] += usize::from(q.is_some_and(|q| q > 0 && q + 1 < n));
+        // the cuts the finders give on the record before any walk
+        let start: Vec<u8> = heads.iter().map(|h| if h.is_finite() { 0 } else { NO_HEAD }).collect();
+        let cut = with_rows(&utc, &heads, &spec, |rows| {
+            let mut cut = [0; 4];
+            for from in 0..=n {
+                let found = [
+                    oow_split(rows, &start, from),
+                    spike_split(rows, &start, from, &spec),
+                    flat_split(rows, &start, from),
+                    (from..n).find(|&p| rows.usable(&start, p)),
+                ];
+                for (k, q) in found.iter().enumerate() {
+                    cut[k] += usize::from(q.is_some_and(|q| q > 0 && q + 1 < n));
+                }
             }
-        }
+            cut
+        });
         assert!(cut.iter().all(|&k| k > n / 2), "most positions give a cut: {cut:?}");
     }
 
@@ -1123,10 +1163,6 @@ mod tests {
             spike_return: 2,
             flat_hours: 1.0,
             ..ScreeningSpec::default()
-        };
-        let sensor = Sensor {
-            dry_m: 0.0,
-            below_crest: true,
         };
         let mut x: u64 = 7;
         let mut next = move |m: u64| {
@@ -1171,22 +1207,7 @@ mod tests {
                 utc.push(t);
                 heads.push(h);
             }
-            let raw: Vec<f64> = heads.iter().map(|h| h + 0.1).collect();
-            let air: Vec<u8> = raw.iter().map(|&stage| sensor.air_bits(stage, &spec)).collect();
-            let rows = Rows {
-                order: None,
-                utc: &utc,
-                raw: &raw,
-                head: Heads::Stored(&heads),
-                air: &air,
-                interval_ms: 15 * MIN,
-            };
-            let edits = Edits::default();
-            let one = screen_in(&rows, n, &edits, &spec, Halves::Off);
-            for from in 0..=n {
-                let two = screen_in(&rows, n, &edits, &spec, Halves::From(from));
-                assert!(two == one, "cut at or after row {from}: {heads:?}");
-            }
+            halves_agree(&utc, &heads, &Edits::default(), &spec);
         }
     }
 }

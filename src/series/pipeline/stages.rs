@@ -753,71 +753,76 @@ mod tests {
         (st, s, rt, r)
     }
 
-    #[test]
-    fn chunks_shared_over_threads_give_what_one_thread_gives() {
+    /// Runs `f` on the conversion of [`long_record`] with its times, rows, rating and settings.
+    fn on_long_record(f: impl FnOnce(&Conversion, &Times, &RawSeries, &RatingStage, &LoggerSettings)) {
         let (st, s, rt, mut r) = long_record();
         let t = times(&mut r, &s).expect("times");
         let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
         let conv = test_conversion(&rt, &st, &s, &t, source, r.lines.len());
-        let run = |cores: usize| {
-            let (mut rows, mut done) = (Chunk::default(), Vec::new());
-            let mut c = convert_on(
-                cores,
-                (&conv, &t, &r, &rt.inputs, None),
-                true,
-                |ch| ch,
-                |ch| {
-                    rows.append(ch);
-                    true
-                },
-                |d| done.push(d),
+        f(&conv, &t, &r, &rt, &s);
+    }
+
+    #[test]
+    fn chunks_shared_over_threads_give_what_one_thread_gives() {
+        on_long_record(|conv, t, r, rt, s| {
+            let run = |cores: usize| {
+                let (mut rows, mut done) = (Chunk::default(), Vec::new());
+                let mut c = convert_on(
+                    cores,
+                    (conv, t, r, &rt.inputs, None),
+                    true,
+                    |ch| ch,
+                    |ch| {
+                        rows.append(ch);
+                        true
+                    },
+                    |d| done.push(d),
+                );
+                let daily = c.summaries.daily(&s.zone, &rt.inputs);
+                (format!("{rows:?}"), c.counts, format!("{daily:?}"), done, c.buckets)
+            };
+            let one = run(1);
+            for cores in [2, 3] {
+                let many = run(cores);
+                assert!(one.0 == many.0, "the rows, bit for bit, on {cores} threads");
+                assert_eq!(one.1, many.1, "the counts on {cores} threads");
+                assert!(one.2 == many.2, "the daily summaries on {cores} threads");
+                assert_eq!(one.3, many.3, "progress in rows, in order");
+                assert_eq!(format!("{:?}", one.4), format!("{:?}", many.4), "the buckets");
+            }
+            let n = r.lines.len() as u64;
+            assert_eq!(one.3.last(), Some(&n), "every row reported");
+            let rows_flagged = |f: Flag| one.1.per_flag[f as usize];
+            assert!(
+                [Flag::Missing, Flag::Ok, Flag::Dry, Flag::AboveRange, Flag::BelowRange]
+                    .map(rows_flagged)
+                    .iter()
+                    .all(|&k| k > 0),
+                "the record is a mixed one: {:?}",
+                one.1.per_flag
             );
-            let daily = c.summaries.daily(&s.zone, &rt.inputs);
-            (format!("{rows:?}"), c.counts, format!("{daily:?}"), done, c.buckets)
-        };
-        let one = run(1);
-        for cores in [2, 3] {
-            let many = run(cores);
-            assert!(one.0 == many.0, "the rows, bit for bit, on {cores} threads");
-            assert_eq!(one.1, many.1, "the counts on {cores} threads");
-            assert!(one.2 == many.2, "the daily summaries on {cores} threads");
-            assert_eq!(one.3, many.3, "progress in rows, in order");
-            assert_eq!(format!("{:?}", one.4), format!("{:?}", many.4), "the buckets");
-        }
-        let n = r.lines.len() as u64;
-        assert_eq!(one.3.last(), Some(&n), "every row reported");
-        let rows_flagged = |f: Flag| one.1.per_flag[f as usize];
-        assert!(
-            [Flag::Missing, Flag::Ok, Flag::Dry, Flag::AboveRange, Flag::BelowRange]
-                .map(rows_flagged)
-                .iter()
-                .all(|&k| k > 0),
-            "the record is a mixed one: {:?}",
-            one.1.per_flag
-        );
+        });
     }
 
     #[test]
     fn a_failed_write_stops_the_conversion_without_another_chunk() {
-        let (st, s, rt, mut r) = long_record();
-        let t = times(&mut r, &s).expect("times");
-        let (source, _) = stage_source(&s, None, t.timeline.interval_ms).expect("source");
-        let conv = test_conversion(&rt, &st, &s, &t, source, r.lines.len());
-        for cores in [1, 2] {
-            let (mut emitted, mut done) = (0, Vec::new());
-            convert_on(
-                cores,
-                (&conv, &t, &r, &rt.inputs, None),
-                false,
-                |ch| ch.line.len(),
-                |_| {
-                    emitted += 1;
-                    emitted < 2
-                },
-                |d| done.push(d),
-            );
-            assert_eq!(emitted, 2, "{cores} threads: the writer failed on the second chunk");
-            assert_eq!(done, [CHUNK_ROWS as u64, 2 * CHUNK_ROWS as u64]);
-        }
+        on_long_record(|conv, t, r, rt, _| {
+            for cores in [1, 2] {
+                let (mut emitted, mut done) = (0, Vec::new());
+                convert_on(
+                    cores,
+                    (conv, t, r, &rt.inputs, None),
+                    false,
+                    |ch| ch.line.len(),
+                    |_| {
+                        emitted += 1;
+                        emitted < 2
+                    },
+                    |d| done.push(d),
+                );
+                assert_eq!(emitted, 2, "{cores} threads: the writer failed on the second chunk");
+                assert_eq!(done, [CHUNK_ROWS as u64, 2 * CHUNK_ROWS as u64]);
+            }
+        });
     }
 }
