@@ -274,6 +274,16 @@ impl OutputSet {
     /// renamed are put back as they were and the error is returned. Special files were written
     /// directly and stay as written.
     pub fn commit(mut self) -> Result<(), FileError> {
+        // every temporary on disk first, outside the lock (a failure leaves every output as it
+        // was): another run committing at the same time, as a network's stations do, need not
+        // wait for these flushes
+        for s in &self.staged {
+            if let Some(temp) = &s.temp {
+                File::open(temp)
+                    .and_then(|f| f.sync_all())
+                    .map_err(io("flushing", &s.path))?;
+            }
+        }
         // the signal handler waits on this lock: no exit half-way through the renames
         let mut live = LIVE.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
         let mut done: Vec<(PathBuf, Option<PathBuf>)> = Vec::new();
@@ -313,17 +323,14 @@ impl OutputSet {
         Err(err)
     }
 
-    /// Flushes one temporary to disk, keeps the previous output as a hard link, and renames the
-    /// temporary over the output. Returns the temporary's former path and the kept previous
-    /// output, or gives the temporary back with the error.
+    /// Keeps the previous output as a hard link and renames the temporary (already on disk)
+    /// over the output. Returns the temporary's former path and the kept previous output, or
+    /// gives the temporary back with the error.
     #[allow(clippy::result_large_err)]
     fn commit_one(
         path: &Path,
         temp: tempfile::TempPath,
     ) -> Result<(PathBuf, Option<PathBuf>), (tempfile::TempPath, FileError)> {
-        if let Err(e) = File::open(&temp).and_then(|f| f.sync_all()) {
-            return Err((temp, io("flushing", path)(e)));
-        }
         let backup = if std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
             let dir = path
                 .parent()
