@@ -138,9 +138,9 @@ enum Kind {
 /// Writes converted chunks.
 pub struct SeriesWriter {
     inner: Inner,
+    /// Makes chunks ready; holds the layout.
     preparer: Preparer,
     tz: Option<TimeZone>,
-    layout: Layout,
     /// Float columns: name and kind, in output order.
     floats: Vec<(String, Kind)>,
 }
@@ -506,10 +506,9 @@ impl SeriesWriter {
         };
         Ok(Self {
             inner,
+            floats: float_names(&layout),
             preparer: Preparer { layout, how },
             tz,
-            floats: float_names(&layout),
-            layout,
         })
     }
 
@@ -521,14 +520,14 @@ impl SeriesWriter {
     /// The time columns of a CSV chunk.
     fn time_columns(&self, time_ms: Vec<i64>) -> Vec<Column> {
         let validity = time_validity(&time_ms);
-        match self.layout.style {
+        match self.preparer.layout.style {
             CsvStyle::Standard => {
                 let time = Int64Chunked::from_vec_validity("time".into(), time_ms, validity)
                     .into_datetime(TimeUnit::Milliseconds, self.tz.clone());
                 vec![time.into_series().with_name("time".into()).into_column()]
             }
             CsvStyle::Spreadsheet { .. } => {
-                let zone = self.layout.zone;
+                let zone = self.preparer.layout.zone;
                 let local: Vec<i64> = time_ms
                     .iter()
                     .map(|&t| {
@@ -568,7 +567,7 @@ impl SeriesWriter {
                 polars_bail!(InvalidOperation: "a chunk prepared for another kind of file (use this writer's preparer)")
             }
         };
-        let layout = self.layout;
+        let layout = self.preparer.layout;
         let height = c.line.len();
         let floats = float_columns(&mut c, &layout);
         let mut cols = self.time_columns(std::mem::take(&mut c.time_ms));

@@ -6,13 +6,19 @@ pub fn cores() -> usize {
     std::thread::available_parallelism().map_or(1, |t| t.get()).clamp(1, 8)
 }
 
-/// Entries per part when `n` entries are shared over the cores: all of them below 64 Ki (a
-/// thread would cost more than it saves).
+/// Whether `n` entries are worth sharing over the cores: 64 Ki or more, and more than one core
+/// (below that a thread would cost more than it saves).
+pub fn worth_sharing(n: usize) -> bool {
+    n >= 1 << 16 && cores() > 1
+}
+
+/// Entries per part when `n` entries are shared over the cores: all of them when they are not
+/// [`worth_sharing`].
 fn per_part(n: usize) -> usize {
-    if n < 1 << 16 {
-        n.max(1)
-    } else {
+    if worth_sharing(n) {
         n.div_ceil(cores())
+    } else {
+        n.max(1)
     }
 }
 

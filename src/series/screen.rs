@@ -351,7 +351,7 @@ const NO_HEAD: u8 = 255;
 
 /// Screens, applies the edits and fills the gaps. `n` is the number of input rows.
 pub fn screen(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec) -> Screened {
-    let halves = if rows.order.is_none() && n >= 1 << 16 && super::parallel::cores() > 1 {
+    let halves = if rows.order.is_none() && super::parallel::worth_sharing(n) {
         Halves::From(n / 2)
     } else {
         Halves::Off
@@ -367,6 +367,17 @@ enum Halves {
     Off,
     /// Two halves, split at or after this position.
     From(usize),
+}
+
+impl Halves {
+    /// Where to cut `rows` (a file in time order): the row `find` gives at or after the
+    /// position, when it leaves rows on both sides.
+    fn cut(self, rows: &Rows<'_>, find: impl FnOnce(usize) -> Option<usize>) -> Option<usize> {
+        match self {
+            Halves::From(from) if rows.order.is_none() => find(from).filter(|&q| q > 0 && q < rows.len()),
+            _ => None,
+        }
+    }
 }
 
 /// [`screen`], its walks split as `halves` says.
@@ -385,18 +396,10 @@ fn screen_in(rows: &Rows<'_>, n: usize, edits: &Edits, spec: &ScreeningSpec, hal
     });
     apply_edits(rows.utc, edits, &mut s);
     if spec.enabled {
-        let walk_oow = |r: &Rows<'_>, c: &mut [u8]| out_of_water(r, spec, c);
-        in_halves(rows, &mut s.codes, halves, oow_split, walk_oow);
-        let walk_spikes = |r: &Rows<'_>, c: &mut [u8]| spikes(r, spec, c);
-        in_halves(
-            rows,
-            &mut s.codes,
-            halves,
-            |r, c, p| spike_split(r, c, p, spec),
-            walk_spikes,
-        );
-        let walk_flat = |r: &Rows<'_>, c: &mut [u8]| flat(r, spec, c);
-        in_halves(rows, &mut s.codes, halves, flat_split, walk_flat);
+        in_halves(rows, &mut s.codes, halves, oow_split, |r, c| out_of_water(r, spec, c));
+        let spike_cut = |r: &Rows<'_>, c: &[u8], p| spike_split(r, c, p, spec);
+        in_halves(rows, &mut s.codes, halves, spike_cut, |r, c| spikes(r, spec, c));
+        in_halves(rows, &mut s.codes, halves, flat_split, |r, c| flat(r, spec, c));
     }
     fill_gaps(rows, edits, spec, &mut s, halves);
     for_parts(&mut s.codes, |_, part| {
@@ -438,11 +441,7 @@ fn in_halves(
     split: impl Fn(&Rows<'_>, &[u8], usize) -> Option<usize>,
     walk: impl Fn(&Rows<'_>, &mut [u8]) + Sync,
 ) {
-    let cut = match halves {
-        Halves::From(from) if rows.order.is_none() => split(rows, codes, from),
-        _ => None,
-    };
-    let Some(q) = cut.filter(|&q| q > 0 && q < rows.len()) else {
+    let Some(q) = halves.cut(rows, |from| split(rows, codes, from)) else {
         walk(rows, codes);
         return;
     };
@@ -634,12 +633,9 @@ fn flat(rows: &Rows<'_>, spec: &ScreeningSpec, codes: &mut [u8]) {
 /// the first half's last gap and the start of the second's first (gaps are independent of each
 /// other, so the halves give exactly what one pass gives; tested for every cut).
 fn fill_gaps(rows: &Rows<'_>, edits: &Edits, spec: &ScreeningSpec, s: &mut Screened, halves: Halves) {
-    let cut = match halves {
-        Halves::From(from) if rows.order.is_none() => (from..rows.len()).find(|&p| rows.usable(&s.codes, p)),
-        _ => None,
-    };
     let n = rows.len();
-    let parts: Vec<(usize, FillPart)> = match cut.filter(|&q| q > 0 && q + 1 < n) {
+    let cut = halves.cut(rows, |from| (from..n).find(|&p| rows.usable(&s.codes, p)));
+    let parts: Vec<(usize, FillPart)> = match cut.filter(|&q| q + 1 < n) {
         Some(q) => {
             let (first, second) = (rows.segment(0..q + 1), rows.segment(q..n));
             let codes = &s.codes;

@@ -540,9 +540,9 @@ pub fn resolve(zone: &Zone, wall: &[i64]) -> (Vec<i64>, Vec<TimeNote>) {
 
 /// Turns local wall-clock times (ms, [`NO_TIME`] where unread) into UTC instants in place, in
 /// file order, with the daylight-saving rule of the module documentation. Returns the local
-/// calendar day of every row ([`LocalDays`]) and the rows that needed a note, as (row, note); every row not listed resolved to one instant. Local hours
-/// whose start and end map to the same offset are resolved once and reused, so long series cost
-/// little.
+/// calendar day of every row ([`LocalDays`]) and the rows that needed a note, as (row, note);
+/// every row not listed resolved to one instant. Local hours whose start and end map to the
+/// same offset are resolved once and reused, so long series cost little.
 ///
 /// Long series are resolved in two halves at once. The second half starts at a row whose time
 /// maps to one instant: there the rule starts afresh in file order too, so the result is the
@@ -566,13 +566,7 @@ pub fn resolve_in_place(zone: &Zone, times: &mut [i64]) -> (LocalDays, Vec<(usiz
     };
     let mut days = LocalDays(days);
     if let Some(wall) = wall {
-        repeated_hour_by_occurrence(zone, &wall, times, &mut notes);
-        // those rows' instants moved by an hour: their day's difference from the UTC day follows
-        for &(row, _) in &notes {
-            if times[row] != NO_TIME {
-                days.0[row] = LocalDays::difference(wall_day(wall[row]), times[row]);
-            }
-        }
+        repeated_hour_by_occurrence(zone, &wall, times, &mut days, &mut notes);
     }
     (days, notes)
 }
@@ -591,8 +585,9 @@ impl LocalDays {
         utc_ms.div_euclid(MS_PER_DAY) + i64::from(self.0[i])
     }
 
-    /// Adds a row: its instant and local day.
-    pub fn push(&mut self, utc_ms: i64, day: i64) {
+    /// Adds a row: its instant and the zone's offset (s) then.
+    pub fn push(&mut self, utc_ms: i64, offset_s: i32) {
+        let day = (utc_ms + i64::from(offset_s) * 1000).div_euclid(MS_PER_DAY);
         self.0.push(Self::difference(day, utc_ms));
     }
 
@@ -655,8 +650,14 @@ pub fn is_newest_first(wall: &[i64]) -> bool {
 /// In a file out of order the clock cannot be seen to step back, so the repeated hour's readings
 /// are told apart by occurrence instead: of the rows with one repeated local time, in file order,
 /// the first, third, … are taken as summer time and the second, fourth, … as standard time.
-/// Notes change with them.
-fn repeated_hour_by_occurrence(zone: &Zone, wall: &[i64], utc: &mut [i64], notes: &mut [(usize, TimeNote)]) {
+/// Notes, and the local days' differences from the UTC day, change with them.
+fn repeated_hour_by_occurrence(
+    zone: &Zone,
+    wall: &[i64],
+    utc: &mut [i64],
+    days: &mut LocalDays,
+    notes: &mut [(usize, TimeNote)],
+) {
     use std::collections::HashMap;
     let mut seen: HashMap<i64, usize> = HashMap::new();
     let ambiguous: Vec<usize> = (0..notes.len())
@@ -675,6 +676,7 @@ fn repeated_hour_by_occurrence(zone: &Zone, wall: &[i64], utc: &mut [i64], notes
         };
         *n += 1;
         utc[row] = t;
+        days.0[row] = LocalDays::difference(wall_day(wall[row]), t);
         notes[k].1 = note;
     }
 }

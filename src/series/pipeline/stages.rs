@@ -326,9 +326,8 @@ pub fn add_inserted(conv: &Conversion, utc: &mut Vec<i64>, days: &mut LocalDays,
         return;
     }
     for r in inserted {
-        let offset_ms = i64::from(conv.zone.offset_at_utc(r.time_ms)) * 1000;
         utc.push(r.time_ms);
-        days.push(r.time_ms, (r.time_ms + offset_ms).div_euclid(86_400_000));
+        days.push(r.time_ms, conv.zone.offset_at_utc(r.time_ms));
         raw.lines.push(0);
         for v in &mut raw.values {
             v.push(f64::NAN);
@@ -433,9 +432,10 @@ fn convert_on<P: Send>(
         buckets: empty.clone(),
     };
     let chunks = n.div_ceil(CHUNK_ROWS);
+    let end_of = |k: usize| ((k + 1) * CHUNK_ROWS).min(n);
     // chunk k: its rows' indices, converted and prepared
     let work = |k: usize| {
-        let rows = k * CHUNK_ROWS..((k + 1) * CHUNK_ROWS).min(n);
+        let rows = k * CHUNK_ROWS..end_of(k);
         let idx: Vec<usize> = match order {
             Some(o) => o[rows].iter().map(|&i| i as usize).collect(),
             None => rows.collect(),
@@ -443,20 +443,21 @@ fn convert_on<P: Send>(
         let (chunk, c, sm, b) = convert_part(conv, times, raw, inputs, &idx, hydrograph.then(|| empty.clone()));
         (prepare(chunk), c, sm, b)
     };
-    let mut take = |(ready, c, sm, b): (P, Counts, Summaries, Option<HydroBuckets>), end: usize| {
+    // chunk k, the next in order: merged, emitted and reported
+    let mut take = |k: usize, (ready, c, sm, b): (P, Counts, Summaries, Option<HydroBuckets>)| {
         out.counts.merge(c);
         out.summaries.merge(sm);
         if let Some(b) = b {
             out.buckets.merge(&b);
         }
         let go_on = emit(ready);
-        progress(end as u64);
+        progress(end_of(k) as u64);
         go_on
     };
     let workers = cores.min(chunks);
     if workers <= 1 {
         for k in 0..chunks {
-            if !take(work(k), ((k + 1) * CHUNK_ROWS).min(n)) {
+            if !take(k, work(k)) {
                 break;
             }
         }
@@ -500,7 +501,7 @@ fn convert_on<P: Send>(
             }
             waiting.insert(k, done);
             while let Some(done) = waiting.remove(&due) {
-                stopped = !take(done, ((due + 1) * CHUNK_ROWS).min(n));
+                stopped = !take(due, done);
                 due += 1;
                 let mut g = gate.0.lock().expect("the gate is not poisoned");
                 *g = (due, stopped);
